@@ -1,0 +1,254 @@
+"""The public Python API.  The CLI is a thin layer over these functions.
+
+>>> from structurize import load_schema, extract_folder
+>>> schema = load_schema("schemas/offer_letter.yaml")
+>>> result = extract_folder("demo_docs/offer_letter", schema)   # doctest: +SKIP
+>>> table, values = result.to_frames()                           # doctest: +SKIP
+"""
+
+from __future__ import annotations
+
+import hashlib
+import time
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Any
+
+from .errors import UsageError
+from .extract import extract_candidates
+from .extract.ner import NerModel, NoNer, load_model
+from .options import ExtractOptions
+from .readers import read_document
+from .resolve import companions, period_candidate, resolve_field
+from .schema import TargetSchema, load_schema
+from .types import Candidate, Document, DocumentResult, DocStatus, FieldValue, ValueStatus
+from .validate import check_unique, to_text, validate_value
+
+__all__ = ["ExtractionResult", "discover", "extract_document", "extract_folder", "load_schema"]
+
+Progress = Callable[[str], None]
+
+
+@dataclass(frozen=True)
+class ExtractionResult:
+    """The outcome of a run: one :class:`DocumentResult` per input file, in path order."""
+
+    schema: TargetSchema
+    documents: tuple[DocumentResult, ...]
+    input_root: str = ""
+    seconds: float = 0.0
+    settings: dict[str, Any] = field(default_factory=dict)
+
+    def rows(self) -> list[dict[str, str]]:
+        """The wide table: one dict per document, the contract's output forms."""
+        names = self.schema.field_names
+        out = []
+        for doc in self.documents:
+            row = {"document": doc.source}
+            for name in names:
+                item = doc.value(name)
+                row[name] = to_text(item.value) if item is not None and item.value is not None else ""
+            out.append(row)
+        return out
+
+    def values(self) -> list[dict[str, Any]]:
+        """The long table: one dict per (document, field)."""
+        out = []
+        for doc in self.documents:
+            for item in doc.values:
+                out.append(
+                    {
+                        "document": doc.source,
+                        "field": item.field,
+                        "value": to_text(item.value),
+                        "confidence": item.confidence,
+                        "status": str(item.status),
+                        "start": item.span.start if item.span is not None else None,
+                        "end": item.span.end if item.span is not None else None,
+                        "page": item.page,
+                        "snippet": item.snippet,
+                        "extractor": item.extractor,
+                        "reason": item.reason,
+                        "alternatives": " | ".join(to_text(alt.value) for alt in item.alternatives),
+                    }
+                )
+        return out
+
+    def document_rows(self) -> list[dict[str, Any]]:
+        return [
+            {
+                "document": doc.source,
+                "status": str(doc.status),
+                "reason": doc.reason,
+                "note": doc.note,
+                "reader": doc.reader,
+                "encoding": doc.encoding or "",
+                "pages": doc.pages,
+                "chars": doc.chars,
+                "warnings": " ".join(doc.warnings),
+                "seconds": round(doc.seconds, 3),
+                "sha256": doc.sha256,
+            }
+            for doc in self.documents
+        ]
+
+    def to_frames(self) -> tuple[Any, Any]:
+        """``(table, values)`` as pandas DataFrames."""
+        import pandas as pd
+
+        table = pd.DataFrame(self.rows(), columns=["document", *self.schema.field_names])
+        values = pd.DataFrame(self.values())
+        return table, values
+
+    def counts(self) -> dict[str, int]:
+        """Documents read and failed; values by status."""
+        counts = {"documents": len(self.documents), "read": 0, "not_read": 0}
+        for status in ValueStatus:
+            counts[str(status)] = 0
+        for doc in self.documents:
+            counts["read" if doc.status.readable else "not_read"] += 1
+            for item in doc.values:
+                counts[str(item.status)] += 1
+        return counts
+
+
+# --- discovery ---------------------------------------------------------------------------
+
+
+def discover(root: Path) -> Iterator[tuple[Path, str]]:
+    """Files under ``root`` in path order, as ``(path, relative source)``.
+
+    Hidden files and folders (names starting with ".") are skipped; everything else is
+    listed, including formats no reader handles (they are reported, not dropped).
+    """
+    if root.is_file():
+        yield root, root.name
+        return
+    paths = []
+    for path in root.rglob("*"):
+        relative = path.relative_to(root)
+        if any(part.startswith(".") for part in relative.parts) or not path.is_file():
+            continue
+        paths.append((relative.as_posix(), path))
+    for source, path in sorted(paths):
+        yield path, source
+
+
+# --- one document ---------------------------------------------------------------------------
+
+
+def _ner(options: ExtractOptions) -> NerModel | NoNer:
+    return load_model(options.ner) if options.ner else NoNer()
+
+
+def extract_document(
+    path: str | Path,
+    schema: TargetSchema,
+    *,
+    source: str | None = None,
+    options: ExtractOptions | None = None,
+    ner: NerModel | NoNer | None = None,
+) -> DocumentResult:
+    """Read one file and extract every field of ``schema`` from it."""
+    options = options or ExtractOptions()
+    path = Path(path)
+    source = source or path.name
+    started = time.perf_counter()
+    data_hash = _sha256(path)
+    doc = read_document(path, source)
+    values = process_text(doc, schema, ner if ner is not None else _ner(options), options)
+    return DocumentResult(
+        source=source,
+        sha256=data_hash,
+        status=doc.status,
+        reason=doc.reason,
+        note=doc.note,
+        reader=doc.reader,
+        encoding=doc.encoding,
+        pages=doc.pages,
+        chars=len(doc.text),
+        warnings=doc.warnings,
+        seconds=time.perf_counter() - started,
+        values=values,
+    )
+
+
+def process_text(doc: Document, schema: TargetSchema, ner: NerModel | NoNer, options: ExtractOptions) -> tuple[FieldValue, ...]:
+    """Extract, resolve and validate every field of one read document."""
+    if not doc.status.readable:
+        reason = f"document not read ({doc.reason or doc.status})"
+        return tuple(FieldValue(spec.name, None, 0.0, ValueStatus.MISSING, reason=reason) for spec in schema.fields)
+    entities = ner.entities(doc.text) if doc.text.strip() else ()
+    analysis, candidates = extract_candidates(doc, schema, entities)
+    review_below = schema.review_below
+    resolved: dict[str, FieldValue] = {}
+    pairs = companions(schema)
+    order = [spec for spec in schema.fields if spec.name not in pairs] + [spec for spec in schema.fields if spec.name in pairs]
+    for spec in order:
+        found: list[Candidate] = list(candidates[spec.name])
+        if spec.name in pairs and pairs[spec.name] in resolved:
+            extra = period_candidate(spec, resolved[pairs[spec.name]], candidates[pairs[spec.name]], analysis.vocabularies[spec.name])
+            if extra is not None:
+                found.append(extra)
+        cues_seen = any(not analysis.excluded(hit.start) for hit in analysis.cue_hits.get(spec.name, ()))
+        resolved[spec.name] = resolve_field(spec, found, review_below=review_below, cues_seen=cues_seen)
+    out = []
+    for spec in schema.fields:
+        item = validate_value(spec, resolved[spec.name])
+        if item.span is not None:
+            item = replace(item, page=doc.page_of(item.span.start), snippet=doc.snippet(item.span, options.snippet_width))
+        out.append(item)
+    return tuple(out)
+
+
+def _sha256(path: Path) -> str:
+    digest = hashlib.sha256()
+    try:
+        with path.open("rb") as handle:
+            for block in iter(lambda: handle.read(1 << 20), b""):
+                digest.update(block)
+    except OSError:
+        return ""
+    return digest.hexdigest()
+
+
+# --- a folder --------------------------------------------------------------------------------
+
+
+def extract_folder(
+    input_path: str | Path,
+    schema: TargetSchema,
+    *,
+    options: ExtractOptions | None = None,
+    progress: Progress | None = None,
+) -> ExtractionResult:
+    """Extract every file under ``input_path``.  One bad file never stops the run."""
+    options = options or ExtractOptions()
+    root = Path(input_path)
+    if not root.exists():
+        raise UsageError(f"input not found: {root}")
+    started = time.perf_counter()
+    ner = _ner(options)
+    results = []
+    for path, source in discover(root):
+        results.append(extract_document(path, schema, source=source, options=options, ner=ner))
+        if progress is not None:
+            progress(source)
+    results = check_unique(schema, results)
+    return ExtractionResult(
+        schema=schema,
+        documents=tuple(results),
+        input_root=str(root),
+        seconds=time.perf_counter() - started,
+        settings={"ner": options.ner or "off", "review_below": schema.review_below},
+    )
+
+
+def count_inputs(input_path: str | Path) -> int:
+    root = Path(input_path)
+    return sum(1 for _ in discover(root)) if root.exists() else 0
+
+
+def failed_documents(result: ExtractionResult) -> list[DocumentResult]:
+    return [doc for doc in result.documents if doc.status is not DocStatus.OK and not doc.status.readable]

@@ -1,0 +1,207 @@
+"""The ``structurize`` command.  It parses arguments, calls the library once, renders.
+
+Exit codes: 0 success; 1 an unexpected failure; 2 a usage or schema error; 3 the run
+finished but some documents could not be read.
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+from pathlib import Path
+from typing import Annotated, Optional
+
+import typer
+from rich.console import Console
+
+from . import api
+from .errors import StructurizeError, UsageError
+from .options import ExtractOptions
+from .schema import load_schema
+from .score import score_path
+from .write import write_outputs
+
+EXIT_OK, EXIT_FAILURE, EXIT_USAGE, EXIT_DOCUMENTS_FAILED = 0, 1, 2, 3
+PROGRESS_AFTER_SECONDS = 1.0
+
+app = typer.Typer(
+    name="structurize",
+    help="Turn folders of HR documents into validated, traceable tables.",
+    add_completion=False,
+    no_args_is_help=True,
+    pretty_exceptions_enable=False,
+)
+err = Console(stderr=True, highlight=False, soft_wrap=True)
+out = Console(highlight=False, soft_wrap=True)
+
+SchemaOpt = Annotated[Path, typer.Option("--schema", "-s", help="Schema file (YAML or JSON), or a folder of schemas named after the input's subfolders.")]
+QuietOpt = Annotated[bool, typer.Option("--quiet", "-q", help="No progress bar and no summary; errors only.")]
+
+
+def _fail(message: str, code: int) -> typer.Exit:
+    err.print(f"structurize: {message}", markup=False)
+    return typer.Exit(code)
+
+
+def _escape(text: str) -> str:
+    """File names in messages: control characters shown as escapes, never raw."""
+    return "".join(ch if ch.isprintable() else ch.encode("unicode_escape").decode("ascii") for ch in text)
+
+
+@app.command("extract")
+def extract_command(
+    input_path: Annotated[Path, typer.Argument(metavar="INPUT", help="Folder (or one file) of documents.")],
+    schema: SchemaOpt,
+    output: Annotated[Path, typer.Option("--out", "-o", help="Folder for the outputs.")],
+    quiet: QuietOpt = False,
+    no_ner: Annotated[bool, typer.Option("--no-ner", help="Rules only: do not load the NER pipeline.")] = False,
+    plain_csv: Annotated[bool, typer.Option("--plain-csv", help="Write CSV without the UTF-8 byte-order mark Excel needs.")] = False,
+) -> None:
+    """Extract every schema field from every document under INPUT into OUT."""
+    options = ExtractOptions(ner=None if no_ner else ExtractOptions.ner, csv_bom=not plain_csv)
+    try:
+        jobs = _jobs(input_path, schema, output)
+        failed = 0
+        for folder, schema_file, out_dir in jobs:
+            failed += _run_one(folder, schema_file, out_dir, options, quiet)
+    except StructurizeError as exc:
+        raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None
+    if failed:
+        raise typer.Exit(EXIT_DOCUMENTS_FAILED)
+
+
+def _jobs(input_path: Path, schema: Path, output: Path) -> list[tuple[Path, Path, Path]]:
+    if not input_path.exists():
+        raise UsageError(f"{_escape(str(input_path))}: input not found")
+    if not schema.exists():
+        raise UsageError(f"{_escape(str(schema))}: schema not found")
+    if schema.is_dir():
+        if not input_path.is_dir():
+            raise UsageError("a schema folder needs an input folder with one subfolder per schema")
+        jobs = []
+        for schema_file in sorted([*schema.glob("*.yaml"), *schema.glob("*.yml"), *schema.glob("*.json")]):
+            folder = input_path / schema_file.stem
+            if folder.is_dir():
+                jobs.append((folder, schema_file, output / schema_file.stem))
+        if not jobs:
+            raise UsageError(f"no subfolder of {_escape(str(input_path))} is named after a schema in {_escape(str(schema))}")
+        return jobs
+    return [(input_path, schema, output)]
+
+
+def _run_one(folder: Path, schema_file: Path, out_dir: Path, options: ExtractOptions, quiet: bool) -> int:
+    target = load_schema(schema_file)
+    _check_writable(out_dir)
+    total = api.count_inputs(folder)
+    started = time.monotonic()
+    progress = None
+    task = None
+    done = 0
+
+    def tick(source: str) -> None:
+        nonlocal progress, task, done
+        done += 1
+        if quiet or not err.is_terminal:
+            return
+        if progress is None and time.monotonic() - started > PROGRESS_AFTER_SECONDS and done < total:
+            from rich.progress import Progress
+
+            progress = Progress(console=err, transient=True)
+            progress.start()
+            task = progress.add_task(f"{target.name}", total=total)
+        if progress is not None and task is not None:
+            progress.update(task, completed=done)
+
+    try:
+        result = api.extract_folder(folder, target, options=options, progress=tick)
+    finally:
+        if progress is not None:
+            progress.stop()
+    paths = write_outputs(result, out_dir, bom=options.csv_bom)
+    failed = [doc for doc in result.documents if not doc.status.readable]
+    for doc in failed:
+        note = doc.note or doc.status.value.replace("_", " ")
+        err.print(f"structurize: {_escape(doc.source)}: {doc.reason or doc.status}: {note}", markup=False)
+    if not quiet:
+        counts = result.counts()
+        out.print(
+            f"{target.name}: {counts['read']} documents read, {counts['not_read']} not read; values: "
+            f"{counts['ok']} ok, {counts['review']} to review, {counts['missing']} missing, {counts['invalid']} invalid; "
+            f"outputs in {paths['table'].parent}",
+            markup=False,
+        )
+    return len(failed)
+
+
+def _check_writable(out_dir: Path) -> None:
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+        probe = out_dir / ".structurize-write-test"
+        probe.write_bytes(b"")
+        probe.unlink()
+    except OSError as exc:
+        raise UsageError(f"{_escape(str(out_dir))}: output folder is not writable ({exc.strerror or exc})") from None
+
+
+@app.command("check-schema")
+def check_schema_command(schema: Annotated[Path, typer.Argument(help="Schema file (YAML or JSON).")]) -> None:
+    """Check a schema file without reading any document."""
+    try:
+        target = load_schema(schema)
+    except StructurizeError as exc:
+        raise _fail(str(exc), exc.exit_code) from None
+    kinds = ", ".join(f"{spec.name} ({spec.hints.kind})" for spec in target.fields)
+    out.print(f"{schema.name}: ok, {len(target.fields)} fields: {kinds}", markup=False)
+
+
+@app.command("score")
+def score_command(
+    gold: Annotated[Path, typer.Argument(metavar="GOLD", help="Gold table (table.csv layout), or a folder of <kind>.csv.")],
+    output: Annotated[Path, typer.Argument(metavar="OUT", help="Output folder of `extract` (or of per-kind subfolders).")],
+    alternates: Annotated[Optional[Path], typer.Option("--alternates", help="CSV of accepted alternative answers (document, field, value).")] = None,
+    as_json: Annotated[bool, typer.Option("--json", help="Print the scores as JSON.")] = False,
+    show_mistakes: Annotated[bool, typer.Option("--mistakes", help="List every wrong cell.")] = False,
+) -> None:
+    """Compare an output with a hand-labelled gold table."""
+    try:
+        score = score_path(gold, output, alternates_path=alternates)
+    except StructurizeError as exc:
+        raise _fail(str(exc), exc.exit_code) from None
+    if as_json:
+        import json
+
+        out.print(json.dumps(score.as_dict(), indent=2, ensure_ascii=False), markup=False)
+        return
+    _render_score(score, show_mistakes)
+
+
+def _render_score(score, show_mistakes: bool) -> None:  # type: ignore[no-untyped-def]
+    from rich.table import Table
+
+    table = Table(title="structurize score", show_lines=False)
+    for column in ("scope", "cells", "accuracy", "precision", "recall", "review load", "errors flagged"):
+        table.add_column(column, justify="right" if column != "scope" else "left")
+    rows = [(f"  {name}", item) for name, item in score.fields.items()]
+    for name, item in score.kinds.items():
+        rows.append((name, item))
+    rows.append(("overall", score.overall))
+    for name, item in rows:
+        table.add_row(name, str(item.cells), f"{item.accuracy:.3f}", f"{item.precision:.3f}", f"{item.recall:.3f}",
+                      f"{item.review_load:.3f}", f"{item.error_recall:.3f} ({item.wrong_flagged}/{item.wrong})")
+    out.print(table)
+    if show_mistakes:
+        for mistake in score.mistakes:
+            mark = "flagged" if mistake.flagged else "NOT flagged"
+            out.print(f"{mistake.kind}/{mistake.document} {mistake.field}: gold {mistake.gold!r} got {mistake.output!r} ({mark})", markup=False)
+
+
+def main() -> None:
+    try:
+        app()
+    except KeyboardInterrupt:
+        err.print("structurize: interrupted", markup=False)
+        sys.exit(130)
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,417 @@
+"""Everything the extractors need to know about one document, computed once and lazily.
+
+An :class:`Analysis` wraps a :class:`~structurize.types.Document` with its label/value
+pairs, its dates (read in the document's own date order, years and relative dates taken
+from the document's own date), money amounts, people and their roles (addressee, signer,
+author, someone copied in, someone another person signs for), and where each field's cues
+occur.  It holds no state that outlives the document.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import re
+from dataclasses import dataclass
+from functools import cached_property
+
+from ..schema.model import FieldSpec, TargetSchema
+from ..types import Document, Span
+from . import dates as datelib
+from .layout import LabelPair, find_pairs
+from .money import MoneyMention, find_money
+from .ner import Entity
+from .text import find_phrase, fold, leading_name, norm, normalise_name
+from .vocab import Vocabulary
+
+EXCLUDED_REGIONS = ("quoted", "forwarded", "attachment")
+
+_CLOSING = re.compile(
+    r"^\s*(?:sincerely|yours sincerely|yours truly|yours faithfully|regards|best regards|kind regards|"
+    r"warm regards|warmest regards|best wishes|best|many thanks|thanks|thank you|cheers|respectfully|"
+    r"with thanks|all the best|thanks again|with best wishes)\s*[,.!]?\s*$",
+    re.IGNORECASE,
+)
+_ON_BEHALF = re.compile(r"\b(?:on behalf of|for and on behalf of|p\.?p\.?|signing for|for)\s+", re.IGNORECASE)
+_DEAR = re.compile(r"^\s*(?:dear|hi|hello|good morning|good afternoon)\s+", re.IGNORECASE)
+_CC = re.compile(r"^\s*(?:cc|copy to|copies to)\s*:\s*", re.IGNORECASE)
+_ANCHOR_LABEL_WORDS = {
+    "letter", "memo", "note", "notes", "conversation", "interview", "meeting", "request", "submitted",
+    "report", "offer", "document", "form", "issue", "issued", "written", "record",
+}
+_REVISED_BEFORE = re.compile(
+    r"(?:\b(?:now|changed to|moved to|revised to|updated to|increased to|decreased to|reduced to|"
+    r"rescheduled to|pushed (?:back )?to|brought forward to|amended to|corrected to|new(?: start| last| effective)? date(?: is)?|"
+    r"instead|agreed)\b[^.;\n]{0,25})$",
+    re.IGNORECASE,
+)
+_SUPERSEDED_BEFORE = re.compile(
+    r"(?:\b(?:was|were|originally|previously|formerly|instead of|replaces|replaced|superseded|supersedes|"
+    r"original(?:ly)?|old|from|per resignation letter|per (?:the |his |her )?(?:resignation )?letter|initially)\b[^.;\n]{0,30})$",
+    re.IGNORECASE,
+)
+_REVISION_SECTION = re.compile(r"^\W*(?:update[ds]?|correction|corrected|revised|revision|amendment|amended|change)\b", re.IGNORECASE)
+_SENTENCE_BREAK = re.compile(r"(?<=[.!?])\s+(?=[A-Z\"“(])|\n\s*\n|\n(?=\s*[-*•]\s)")
+_FIRST_PERSON = re.compile(r"^(?:i|me|myself|i am|i'm|i've|i will)$", re.IGNORECASE)
+
+
+@dataclass(frozen=True, slots=True)
+class DateRead:
+    start: int
+    end: int
+    value: dt.date | None
+    flags: frozenset[str]
+
+
+@dataclass(frozen=True, slots=True)
+class Person:
+    start: int
+    end: int
+    name: str
+    source: str  #: ``ner``, ``role`` or ``label``
+
+
+@dataclass(frozen=True, slots=True)
+class CueHit:
+    cue: str
+    start: int
+    end: int
+
+
+@dataclass(frozen=True)
+class Roles:
+    addressee: tuple[Person, ...] = ()
+    signer: Person | None = None
+    principal: Person | None = None  #: someone the signer signs for ("on behalf of X")
+    author: Person | None = None  #: a memo's or message's From person
+    copied: tuple[Person, ...] = ()
+
+
+def _anchor_rank(label: str) -> int | None:
+    """0 for a label that is just "Date", 1 for "Date of letter" and the like."""
+    if label in ("date", "dated"):
+        return 0
+    words = set(label.split())
+    if words & {"date", "dated"} and words & _ANCHOR_LABEL_WORDS:
+        return 1
+    return None
+
+
+class Analysis:
+    """Lazy, per-document facts for the extractors."""
+
+    def __init__(self, doc: Document, schema: TargetSchema, entities: tuple[Entity, ...] = ()) -> None:
+        self.doc = doc
+        self.schema = schema
+        self.text = doc.text
+        self.entities = entities
+
+    # --- regions and sentences -------------------------------------------------------
+
+    def excluded(self, start: int) -> str | None:
+        """The kind of quoted/forwarded region ``start`` lies in, if any."""
+        for region in self.doc.regions:
+            if region.kind in EXCLUDED_REGIONS and region.span.start <= start < region.span.end:
+                return region.kind
+        return None
+
+    @cached_property
+    def _sentence_starts(self) -> list[int]:
+        starts = [0]
+        for match in _SENTENCE_BREAK.finditer(self.text):
+            starts.append(match.end())
+        for line in self.doc.lines:
+            starts.append(line.start)
+        return sorted(set(starts))
+
+    def sentence(self, offset: int) -> tuple[int, int]:
+        """Bounds of the sentence (or line, for short lines) around ``offset``."""
+        import bisect
+
+        starts = self._sentence_starts
+        index = bisect.bisect_right(starts, offset) - 1
+        start = starts[max(0, index)]
+        end = starts[index + 1] if index + 1 < len(starts) else len(self.text)
+        return start, end
+
+    def line_of(self, offset: int) -> Span:
+        import bisect
+
+        lines = self.doc.lines
+        index = bisect.bisect_right([line.start for line in lines], offset) - 1
+        return lines[max(0, index)] if lines else Span(0, len(self.text))
+
+    # --- layout ----------------------------------------------------------------------
+
+    @cached_property
+    def pairs(self) -> list[LabelPair]:
+        return find_pairs(self.doc)
+
+    @cached_property
+    def label_spans(self) -> list[Span]:
+        return [pair.label_span for pair in self.pairs]
+
+    # --- dates -------------------------------------------------------------------------
+
+    @cached_property
+    def date_mentions(self) -> list[datelib.DateMention]:
+        return datelib.find_dates(self.text)
+
+    @cached_property
+    def date_order(self) -> tuple[str, bool, str]:
+        return datelib.document_order(self.text, self.date_mentions, self.schema.date_order)
+
+    @cached_property
+    def anchor(self) -> tuple[dt.date | None, str]:
+        """The document's own date and where it came from."""
+        header = self.doc.header("Date")
+        if header is not None and header.date is not None:
+            return header.date.date(), "date header"
+        order, known, _ = self.date_order
+        best: tuple[int, dt.date] | None = None
+        for pair in self.pairs:
+            rank = _anchor_rank(pair.label)
+            if rank is None:
+                continue
+            span = pair.value_span
+            mention = next((m for m in self.date_mentions if span.start <= m.start < span.end), None)
+            if mention is None:
+                continue
+            value, _ = datelib.resolve(mention, self.text, order, None, known)
+            if value is not None and (best is None or rank < best[0]):
+                best = (rank, value)
+        if best is not None:
+            return best[1], "date label"
+        dateline = self.dateline
+        if dateline is not None and dateline.value is not None:
+            return dateline.value, "dateline"
+        years = [m.parts[2] if m.parts else m.value.year for m in self.date_mentions if (m.value or (m.parts and m.parts[2]))]
+        if years:
+            year = max(set(years), key=years.count)
+            return dt.date(year, 6, 30), "common year"
+        return None, ""
+
+    @cached_property
+    def dateline(self) -> DateRead | None:
+        """A line near the top that holds only a date (the date of a letter)."""
+        order, known, _ = self.date_order
+        for line in self.doc.lines[:15]:
+            raw = self.text[line.start : line.end].strip(" *_#")
+            if not raw:
+                continue
+            for mention in self.date_mentions:
+                if line.start <= mention.start < line.end:
+                    covered = self.text[mention.start : mention.end]
+                    if len(covered) >= len(raw) - 2:
+                        value, flags = datelib.resolve(mention, self.text, order, None, known)
+                        if value is not None:
+                            return DateRead(mention.start, mention.end, value, flags)
+                    break
+        return None
+
+    @cached_property
+    def dates(self) -> list[DateRead]:
+        order, known, _ = self.date_order
+        anchor, source = self.anchor
+        weak = source == "common year"
+        out = []
+        for mention in self.date_mentions:
+            value, flags = datelib.resolve(mention, self.text, order, anchor, known)
+            if weak and ("relative" in flags or "year_inferred" in flags):
+                flags = flags | {"weak_anchor"}
+            out.append(DateRead(mention.start, mention.end, value, flags))
+        return out
+
+    # --- money -------------------------------------------------------------------------
+
+    @cached_property
+    def money(self) -> list[MoneyMention]:
+        return find_money(self.text)
+
+    # --- people ------------------------------------------------------------------------
+
+    @cached_property
+    def ner_people(self) -> list[Person]:
+        out = []
+        for entity in self.entities:
+            if entity.label != "PERSON":
+                continue
+            raw = entity.text
+            if raw.endswith(("'s", "’s")):
+                raw = raw[:-2]
+            found = leading_name(raw, entity.start)
+            if found is not None:
+                out.append(Person(found[0], found[1], found[2], "ner"))
+        return out
+
+    def ner_overlaps(self, start: int, end: int, label: str = "PERSON") -> bool:
+        return any(e.label == label and e.start < end and start < e.end for e in self.entities)
+
+    @cached_property
+    def roles(self) -> Roles:
+        text = self.text
+        lines = [line for line in self.doc.lines if not self.excluded(line.start)]
+        addressee: list[Person] = []
+        copied: list[Person] = []
+        signer = principal = author = None
+        for index, line in enumerate(lines):
+            raw = text[line.start : line.end]
+            dear = _DEAR.match(raw)
+            if dear and not addressee:
+                found = leading_name(raw[dear.end() :].rstrip(",:;"), line.start + dear.end())
+                if found:
+                    addressee.append(Person(found[0], found[1], found[2], "role"))
+            cc = _CC.match(raw)
+            if cc:
+                for piece in re.finditer(r"[^;,]+", raw[cc.end() :]):
+                    found = leading_name(piece.group().strip(), line.start + cc.end() + piece.start() + (len(piece.group()) - len(piece.group().lstrip())))
+                    if found:
+                        copied.append(Person(found[0], found[1], found[2], "role"))
+            if _CLOSING.match(raw):
+                for follow in lines[index + 1 : index + 4]:
+                    candidate = text[follow.start : follow.end].strip()
+                    if not candidate:
+                        continue
+                    found = leading_name(candidate, follow.start + (len(text[follow.start : follow.end]) - len(text[follow.start : follow.end].lstrip())))
+                    if found:
+                        signer = Person(found[0], found[1], found[2], "role")
+                        principal = self._principal(lines, lines.index(follow)) or principal
+                        break
+        if signer is None:
+            signer = self._signature_guess(lines)
+            if signer is not None:
+                principal = self._principal(lines, next(i for i, l in enumerate(lines) if l.start <= signer.start < l.end + 1))
+        for header_name in ("From",):
+            header = self.doc.header(header_name)
+            if header is not None and header.addresses and header.addresses[0].name:
+                address = header.addresses[0]
+                span = address.name_span or header.span
+                author = Person(span.start, span.end, normalise_name(address.name), "role")
+        if author is None:
+            for pair in self.pairs:
+                if pair.label == "from" and pair.source in ("line", "gap"):
+                    found = leading_name(text[pair.value_span.start : pair.value_span.end], pair.value_span.start)
+                    if found:
+                        author = Person(found[0], found[1], found[2], "role")
+                        break
+        if not addressee:
+            for pair in self.pairs:
+                if pair.label == "to" and pair.source in ("line", "gap", "header"):
+                    found = leading_name(text[pair.value_span.start : pair.value_span.end], pair.value_span.start)
+                    if found:
+                        addressee.append(Person(found[0], found[1], found[2], "role"))
+                        break
+        return Roles(tuple(addressee), signer, principal, author, tuple(copied))
+
+    def _principal(self, lines: list, index: int) -> Person | None:
+        for follow in lines[index : index + 3]:
+            raw = self.text[follow.start : follow.end]
+            match = _ON_BEHALF.search(raw)
+            if match and ("behalf" in match.group().lower() or match.start() > 0 and raw[: match.start()].rstrip().endswith(",")):
+                found = leading_name(raw[match.end() :], follow.start + match.end())
+                if found:
+                    return Person(found[0], found[1], found[2], "role")
+        return None
+
+    def _signature_guess(self, lines: list) -> Person | None:
+        """With no closing line, a name alone on one of the last lines is the signer."""
+        tail = [line for line in lines if self.text[line.start : line.end].strip()][-4:]
+        for line in reversed(tail):
+            raw = self.text[line.start : line.end]
+            stripped = raw.strip()
+            found = leading_name(stripped, line.start + (len(raw) - len(raw.lstrip())))
+            if found and (found[1] - found[0]) >= len(stripped.split("|")[0].split(",")[0].strip()) - 1:
+                return Person(found[0], found[1], found[2], "role")
+        return None
+
+    @cached_property
+    def known_names(self) -> list[str]:
+        """Full names (two tokens or more) seen anywhere: NER, roles and labelled values."""
+        names = [p.name for p in self.ner_people]
+        roles = self.roles
+        for person in (*roles.addressee, roles.signer, roles.principal, roles.author, *roles.copied):
+            if person is not None:
+                names.append(person.name)
+        for pair in self.pairs:
+            found = leading_name(self.text[pair.value_span.start : pair.value_span.end])
+            if found:
+                names.append(found[2])
+        return [name for name in dict.fromkeys(names) if len(name.split()) >= 2]
+
+    def complete_name(self, name: str) -> str | None:
+        """Expand a short name ("Carlos", "Ms. Rahman", "F. MacAllister") to the full one."""
+        tokens = fold(name).split()
+        if len(tokens) >= 2 and not any(len(t.rstrip(".")) == 1 for t in tokens):
+            return name
+        matches = []
+        for full in self.known_names:
+            full_tokens = fold(full).split()
+            if len(tokens) == 1 and tokens[0] in (full_tokens[0], full_tokens[-1]):
+                matches.append(full)
+            elif len(tokens) >= 2 and tokens[-1] == full_tokens[-1] and full_tokens[0].startswith(tokens[0].rstrip(".")):
+                matches.append(full)
+        unique = list(dict.fromkeys(matches))
+        if len(unique) == 1:
+            return unique[0]
+        return None
+
+    def first_person(self, phrase: str) -> bool:
+        return bool(_FIRST_PERSON.match(phrase.strip()))
+
+    # --- cues ----------------------------------------------------------------------------
+
+    @cached_property
+    def cue_hits(self) -> dict[str, list[CueHit]]:
+        """Where each field's cues occur; a hit inside a longer cue of another field is dropped."""
+        all_hits: list[tuple[str, CueHit]] = []
+        for spec in self.schema.fields:
+            for cue in spec.hints.cues:
+                for start, end in find_phrase(self.text, cue):
+                    all_hits.append((spec.name, CueHit(cue, start, end)))
+        out: dict[str, list[CueHit]] = {spec.name: [] for spec in self.schema.fields}
+        for name, hit in all_hits:
+            swallowed = any(
+                other != name and o.start <= hit.start and hit.end <= o.end and (o.end - o.start) > (hit.end - hit.start)
+                for other, o in all_hits
+            )
+            if not swallowed:
+                out[name].append(hit)
+        return out
+
+    @cached_property
+    def vocabularies(self) -> dict[str, Vocabulary]:
+        return {spec.name: Vocabulary(spec.hints) for spec in self.schema.fields if spec.hints.kind in ("choice", "flag")}
+
+    # --- revisions -------------------------------------------------------------------------
+
+    @cached_property
+    def _revision_sections(self) -> list[tuple[int, int]]:
+        out = []
+        for line in self.doc.lines:
+            raw = self.text[line.start : line.end]
+            if _REVISION_SECTION.match(raw.lstrip("*#>-• ")):
+                start, end = self.sentence(line.start)
+                out.append((line.start, max(end, line.end)))
+        return out
+
+    def revision(self, start: int, *, kind: str) -> str | None:
+        """``revised`` / ``superseded`` when the words before a value say so."""
+        line = self.line_of(start)
+        clause_start = max(line.start, start - 60)
+        before = self.text[clause_start:start]
+        before = re.split(r"[.;!?]\s|--|\s[–—]\s", before)[-1] if before else before
+        if kind in ("date", "money") and _SUPERSEDED_BEFORE.search(before):
+            return "superseded"
+        if _REVISED_BEFORE.search(before):
+            return "revised"
+        if any(s <= start < e for s, e in self._revision_sections):
+            return "revised"
+        return None
+
+    def field(self, name: str) -> FieldSpec:
+        return self.schema.field(name)
+
+    def value_text(self, span: Span) -> str:
+        return self.text[span.start : span.end]
+
+    def label_norm(self, span: Span) -> str:
+        return norm(self.text[span.start : span.end])

@@ -1,0 +1,396 @@
+"""The built-in extractors.  Each one looks in one kind of place and yields candidates.
+
+=================  ===================================================================
+``label.v1``       ``Label: value`` lines, table rows and form layouts whose label matches
+                   a cue of the field
+``prose.v1``       a value close to a cue in running text ("report to ...", "your first
+                   day will be ...")
+``header.v1``      email headers (From, To, Date, Subject ...)
+``dateline.v1``    the date line of a letter, for a field cued as the document's "date"
+``role.v1``        people by their role: addressee, signer, author, someone signed for
+``scan.v1``        vocabulary mentions and ticked boxes anywhere (weak evidence)
+``pattern.v1``     identifiers, email addresses and phone numbers anywhere (weak evidence)
+=================  ===================================================================
+
+Scores are the strength of one piece of evidence alone; :mod:`structurize.resolve`
+combines them.  How each score is built is documented in DEVELOPERS.md ("Confidence").
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Iterator
+
+from ..schema.model import FieldSpec
+from ..types import Alternative, Candidate, Span
+from . import kinds
+from .analysis import Analysis, Person
+from .kinds import Reading
+from .text import cue_match, leading_name, norm
+
+#: Below this cue/label match a label is not taken as naming the field.
+MIN_LABEL_MATCH = 0.6
+LABEL_WEIGHT = 0.92
+PROSE_WEIGHT = 0.74
+PROSE_REACH = 110  #: characters after a cue in which a value may start
+EXCLUDED_FACTOR = 0.2
+
+_FILLERS = {
+    "a", "an", "the", "as", "of", "to", "by", "is", "was", "will", "be", "our", "your", "his", "her", "their",
+    "full-time", "part-time", "permanent", "temporary", "new", "position", "role", "job", "title", "for",
+    "directly", "on", "at", "with", "within", "been", "being", "are", "am", "that", "this", "now",
+    "who", "which", "also", "formally", "officially", "fixed-term", "regular", "date", "day",
+}
+_AUTHOR_CUE = re.compile(r"^(?:i|we)\b|\bby$|^from$", re.IGNORECASE)
+_ADDRESSEE_CUE = {"dear", "to", "candidate", "addressee", "recipient", "attention", "attn"}
+
+
+def _candidate(spec: FieldSpec, reading: Reading, extractor: str, score: float, evidence: tuple[str, ...], an: Analysis) -> Candidate:
+    flags = set(reading.flags)
+    region = an.excluded(reading.start)
+    if region:
+        flags.add(region)
+        score *= EXCLUDED_FACTOR
+        evidence += (f"inside a {region} block",)
+    if an.doc.encoding_guessed:
+        flags.add("encoding_guessed")
+    return Candidate(
+        field=spec.name,
+        value=reading.value,
+        raw=an.text[reading.start : reading.end],
+        span=Span(reading.start, reading.end),
+        extractor=extractor,
+        score=max(0.0, min(1.0, score)),
+        evidence=evidence + reading.evidence,
+        flags=frozenset(flags),
+        facets=reading.facets,
+        alternatives=reading.alternatives,
+    )
+
+
+def _best_cue(spec: FieldSpec, label: str) -> tuple[float, str]:
+    best = (0.0, "")
+    for cue in spec.hints.cues:
+        score = cue_match(norm(cue), label)
+        if score > best[0]:
+            best = (score, cue)
+    return best
+
+
+def _owner_margin(an: Analysis, spec: FieldSpec, label: str, score: float) -> float:
+    """How much another field's cues claim this label more strongly (0 when none does)."""
+    margin = 0.0
+    for other in an.schema.fields:
+        if other.name == spec.name:
+            continue
+        other_score, _ = _best_cue(other, label)
+        margin = max(margin, other_score - score)
+    return margin
+
+
+def _resolve_first_person(an: Analysis, spec: FieldSpec, reading: Reading) -> Reading | None:
+    """"reporting to me", "I approve": the person is the document's author or signer."""
+    roles = an.roles
+    person = roles.author or roles.signer
+    if person is None:
+        return None
+    return Reading(person.name, person.start, person.end, 0.85 * reading.quality, reading.flags | {"first_person"},
+                   evidence=("first person → author/signer",))
+
+
+def _ordered(readings: list[Reading]) -> list[Reading]:
+    """Revised values first, superseded ones last, otherwise text order."""
+    def rank(reading: Reading) -> int:
+        return 0 if "revised" in reading.flags else 2 if "superseded" in reading.flags else 1
+
+    return sorted(readings, key=rank)
+
+
+# --- label.v1 ------------------------------------------------------------------------------
+
+
+def label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    for pair in an.pairs:
+        if pair.source == "header":
+            continue
+        label = pair.label
+        match, cue = _best_cue(spec, label)
+        if pair.column:
+            column_match, column_cue = _best_cue(spec, pair.column)
+            if column_match > match:
+                match, cue = column_match * 0.9, column_cue
+        if match < MIN_LABEL_MATCH:
+            continue
+        margin = _owner_margin(an, spec, label, match)
+        ownership = 1.0 if margin <= 0.02 else max(0.3, 1.0 - 2 * margin)
+        readings = kinds.read(an, spec, pair.value_span.start, pair.value_span.end)
+        readings = [r for r in readings if r.quality > 0]
+        if not readings:
+            continue
+        evidence = (f"label {an.text[pair.label_span.start:pair.label_span.end]!r} matches cue {cue!r} ({match:.2f})", f"layout {pair.source}")
+        for rank, reading in enumerate(_ordered(readings)[:3]):
+            if "first_person" in reading.flags and reading.value is None:
+                resolved = _resolve_first_person(an, spec, reading)
+                if resolved is None:
+                    continue
+                reading = resolved
+            weight = 1.0 if rank == 0 else 0.45
+            score = LABEL_WEIGHT * pair.strength * match * ownership * reading.quality * weight
+            yield _candidate(spec, reading, "label.v1", score, evidence, an)
+
+
+# --- prose.v1 ------------------------------------------------------------------------------
+
+
+def _inside_label(an: Analysis, start: int, end: int) -> bool:
+    return any(span.start <= start and end <= span.end for span in an.label_spans)
+
+
+def _skip_fillers(text: str, position: int, limit: int) -> tuple[int, str | None]:
+    """Move past filler words; return the new position and a first-person word if met."""
+    for _ in range(6):
+        match = re.match(r"[\s,:–—-]*([\w'’-]+)", text[position:limit])
+        if not match:
+            return position, None
+        word = match.group(1)
+        if word.lower() in ("me", "myself", "i"):
+            return position + match.start(1), word
+        if word.lower() not in _FILLERS:
+            return position + match.start(1), None
+        position += match.end()
+    return position, None
+
+
+def prose_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    kind = spec.hints.kind
+    for hit in an.cue_hits.get(spec.name, ()):
+        if _inside_label(an, hit.start, hit.end):
+            continue
+        sentence_start, sentence_end = an.sentence(hit.start)
+        limit = min(len(an.text), hit.end + PROSE_REACH, max(sentence_end, hit.end + 1))
+        weight = PROSE_WEIGHT * (1.0 if len(hit.cue.split()) > 1 else 0.85)
+        evidence = (f"cue {hit.cue!r} in running text",)
+        found = False
+        for reading, distance in _prose_readings(an, spec, hit.start, hit.end, limit):
+            decay = max(0.45, 1.0 - distance / 160)
+            if "first_person" in reading.flags and reading.value is None:
+                resolved = _resolve_first_person(an, spec, reading)
+                if resolved is None:
+                    continue
+                reading = resolved
+            yield _candidate(spec, reading, "prose.v1", weight * decay * reading.quality, evidence, an)
+            found = True
+            break
+        if not found and kind in ("date", "person", "flag", "choice"):
+            before_start = max(sentence_start, hit.start - 45)
+            readings = [r for r in kinds.read(an, spec, before_start, hit.start) if r.quality > 0 and r.value is not None]
+            if readings:
+                reading = readings[-1]
+                yield _candidate(spec, reading, "prose.v1", weight * 0.7 * reading.quality, evidence + ("value before the cue",), an)
+
+
+def _prose_readings(an: Analysis, spec: FieldSpec, start: int, end: int, limit: int) -> Iterator[tuple[Reading, int]]:
+    kind = spec.hints.kind
+    text = an.text
+    if kind == "person":
+        position, first_person = _skip_fillers(text, end, limit)
+        if first_person:
+            yield Reading(None, position, position + len(first_person), 0.9, frozenset({"first_person"})), position - end
+            return
+        found = leading_name(text[position:limit], position)
+        if found is not None and position - end <= 40:
+            reading = kinds._person_reading(an, found)
+            yield reading, position - end
+            return
+        for person in an.ner_people:
+            if end <= person.start < limit:
+                full = an.complete_name(person.name) or person.name
+                yield Reading(full, person.start, person.end, 0.8, evidence=("ner PERSON",)), person.start - end
+                return
+        return
+    if kind == "job_title":
+        position, _ = _skip_fillers(text, end, limit)
+        reading = kinds.title_phrase(an, position, limit)
+        if reading is not None:
+            yield reading, position - end
+            return
+        before = re.search(r"((?:[A-Z][\w'’&()-]*\s+){0,5}[A-Z][\w'’&()-]*)\s+$", text[max(0, start - 60) : start])
+        if before and re.match(r"(?:position|role|job|post)\b", text[start:end], re.IGNORECASE):
+            phrase_start = max(0, start - 60) + before.start(1)
+            reading = kinds.title_phrase(an, phrase_start, start)
+            if reading is not None:
+                yield reading, 0
+        return
+    if kind == "flag":
+        window_start = an.sentence(start)[0]
+        readings = kinds.read(an, spec, max(window_start, start - 40), limit)
+        for reading in readings:
+            if reading.quality > 0:
+                yield reading, abs(reading.start - end)
+                return
+        return
+    for reading in _ordered([r for r in kinds.read(an, spec, end, limit) if r.quality > 0]):
+        yield reading, max(0, reading.start - end)
+
+
+# --- header.v1 ------------------------------------------------------------------------------
+
+
+def header_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    kind = spec.hints.kind
+    for header in an.doc.headers:
+        match, cue = _best_cue(spec, norm(header.name))
+        if match < 0.9:
+            continue
+        evidence = (f"{header.name} header (cue {cue!r})",)
+        span = header.span
+        if kind == "email":
+            if not header.addresses:
+                yield Candidate(spec.name, None, an.text[span.start : span.end], span, "header.v1", 0.9, evidence + ("no address in the header",), frozenset({"stated_missing"}))
+                continue
+            for index, address in enumerate(header.addresses):
+                at = address.email_span or span
+                yield Candidate(spec.name, address.email, address.email, at, "header.v1", 0.97 if index == 0 else 0.3,
+                                evidence + (("first address",) if index == 0 else (f"address {index + 1}",)))
+        elif kind == "person" and header.addresses:
+            address = header.addresses[0]
+            if address.name and "@" not in address.name:
+                at = address.name_span or span
+                found = leading_name(address.name) or (0, len(address.name), address.name)
+                name = kinds.normalise_name(address.name) if "," in address.name else found[2] if len(found[2].split()) > 1 else kinds.normalise_name(address.name)
+                yield Candidate(spec.name, name, address.name, at, "header.v1", 0.95, evidence + ("display name",))
+            else:
+                yield from _signature_for_address(an, spec, address.email, evidence)
+        elif kind == "date" and header.date is not None:
+            yield Candidate(spec.name, header.date.date(), an.text[span.start : span.end], span, "header.v1", 0.97,
+                            evidence + ("calendar date in the header's own offset",))
+        elif kind in ("text", "job_title"):
+            value = " ".join(an.text[span.start : span.end].split())
+            if value:
+                yield Candidate(spec.name, value, value, span, "header.v1", 0.95, evidence)
+
+
+def _signature_for_address(an: Analysis, spec: FieldSpec, address: str, evidence: tuple[str, ...]) -> Iterator[Candidate]:
+    """A From header with no display name: the body's signer, if it is a person."""
+    signer = an.roles.signer
+    if signer is None:
+        yield Candidate(spec.name, None, address, Span(0, 0), "header.v1", 0.6, evidence + ("no display name and no signature",), frozenset({"stated_missing"}))
+        return
+    local = re.split(r"[._-]", address.split("@")[0].lower())
+    tokens = [t.lower() for t in signer.name.split()]
+    agrees = bool(set(local) & set(tokens))
+    score = 0.88 if agrees else 0.6
+    yield Candidate(spec.name, signer.name, an.text[signer.start : signer.end], Span(signer.start, signer.end), "header.v1", score,
+                    evidence + ("no display name: signature", "signature matches the address" if agrees else "signature does not match the address"))
+
+
+# --- dateline.v1 ------------------------------------------------------------------------------
+
+
+def dateline_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    cues = {norm(cue) for cue in spec.hints.cues}
+    if not cues & {"date", "dated"} or an.doc.headers:
+        return
+    line = an.dateline
+    if line is None or line.value is None:
+        return
+    reading = Reading(line.value, line.start, line.end, 1.0, line.flags)
+    yield _candidate(spec, reading, "dateline.v1", 0.82, ("a line holding only a date near the top (the letter's date)",), an)
+
+
+# --- role.v1 ------------------------------------------------------------------------------------
+
+
+def role_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    cues = [norm(cue) for cue in spec.hints.cues]
+    roles = an.roles
+    people: list[tuple[Person, float, str]] = []
+    if any(cue in _ADDRESSEE_CUE for cue in cues):
+        for person in roles.addressee[:1]:
+            people.append((person, 0.5, "addressee"))
+    if any(_AUTHOR_CUE.search(cue) for cue in cues):
+        author = roles.author or roles.signer
+        if author is not None:
+            people.append((author, 0.32, "author/signer"))
+    for person, score, role in people:
+        name = an.complete_name(person.name) or person.name
+        flags = frozenset() if len(name.split()) > 1 else frozenset({"partial_name"})
+        reading = Reading(name, person.start, person.end, 1.0, flags)
+        yield _candidate(spec, reading, "role.v1", score, (f"the document's {role}",), an)
+
+
+def person_role_penalty(an: Analysis, spec: FieldSpec, candidate: Candidate) -> Candidate:
+    """People copied in, or the signer, are not the addressee-type person of a field."""
+    from dataclasses import replace
+
+    cues = [norm(cue) for cue in spec.hints.cues]
+    if spec.hints.kind != "person" or not any(cue in _ADDRESSEE_CUE for cue in cues) or candidate.extractor == "role.v1":
+        return candidate
+    roles = an.roles
+    others = [p.name for p in (roles.signer, roles.principal, *roles.copied) if p is not None]
+    if isinstance(candidate.value, str) and any(kinds.same_value(candidate.value, name) for name in others):
+        return replace(candidate, score=candidate.score * 0.5, evidence=candidate.evidence + ("is the signer or copied in",))
+    return candidate
+
+
+# --- scan.v1 ------------------------------------------------------------------------------------
+
+
+def scan_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    vocabulary = an.vocabularies.get(spec.name)
+    if vocabulary is None or spec.hints.kind != "choice":
+        return
+    siblings = [
+        other for other in an.schema.fields
+        if other.name != spec.name and other.hints.kind == "choice" and set(an.vocabularies[other.name].values) == set(vocabulary.values)
+    ]
+    for mention in vocabulary.find(an.text, loose=True):
+        if mention.ticked is False or mention.negated:
+            continue
+        if _inside_label(an, mention.start, mention.end):
+            continue
+        if mention.ticked:
+            score = 0.8
+            evidence = ("a ticked box",)
+        elif siblings:
+            continue
+        else:
+            score = 0.28 if not mention.loose else 0.2
+            evidence = ("mentioned in the text, no cue",)
+        reading = Reading(mention.value, mention.start, mention.end, 1.0, frozenset({"ticked"}) if mention.ticked else frozenset())
+        yield _candidate(spec, reading, "scan.v1", score, evidence + (f"variant {mention.variant!r}",), an)
+
+
+# --- pattern.v1 ------------------------------------------------------------------------------------
+
+
+def pattern_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    kind = spec.hints.kind
+    if kind not in ("identifier", "email", "phone") or (kind == "email" and an.doc.headers):
+        return
+    readings = [r for r in kinds.read(an, spec, 0, len(an.text)) if r.value is not None]
+    distinct = {str(r.value) for r in readings}
+    score = 0.62 if len(distinct) == 1 else 0.35
+    for reading in readings:
+        yield _candidate(spec, reading, "pattern.v1", score, (f"matches the {kind} pattern", f"{len(distinct)} distinct value(s) in the document"), an)
+
+
+def acting_for_alternatives(an: Analysis, candidate: Candidate) -> Candidate:
+    """"Approved: X ... on behalf of Y": keep Y as the alternative a reviewer may pick."""
+    from dataclasses import replace
+
+    line = an.line_of(candidate.span.start)
+    rest = an.text[candidate.span.end : line.end + 120]
+    match = re.search(r"\bon behalf of\s+", rest[:160], re.IGNORECASE)
+    if not match:
+        return candidate
+    found = leading_name(rest[match.end() :], candidate.span.end + match.end())
+    if found is None:
+        return candidate
+    alternative = Alternative(found[2], candidate.score * 0.6, Span(found[0], found[1]))
+    return replace(
+        candidate,
+        flags=candidate.flags | {"acting_for"},
+        alternatives=candidate.alternatives + (alternative,),
+        evidence=candidate.evidence + (f"acts on behalf of {found[2]}",),
+    )

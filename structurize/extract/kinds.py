@@ -1,0 +1,421 @@
+"""Read a value of a given kind out of a stretch of text.
+
+``read(analysis, spec, start, end)`` returns the readings of ``spec``'s kind found in
+``text[start:end]``, in text order, each with its own span, a quality in 0..1 and flags.
+The label, prose and fallback extractors all use these readers; they differ only in where
+they look and how much they trust the place.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from decimal import Decimal
+from typing import Any
+
+from ..schema.model import FieldSpec
+from ..types import Alternative
+from .analysis import Analysis
+from .money import period_in
+from .text import fold, leading_name, normalise_name
+
+_STATED_MISSING = re.compile(
+    r"^\W*(?:n/?a\b|none\b|nil\b|tbd\b|tbc\b|t\.b\.[cd]\.|pending\b|unknown\b|undecided\b|awaiting\b|"
+    r"not\s+(?:yet\s+)?(?:known|decided|available|provided|stated|applicable|given|on\s+file|confirmed|"
+    r"on\s+the\b|recorded|listed|included)|to\s+be\s+(?:confirmed|decided|determined|advised|agreed)|"
+    r"\?+(?:\s|$)|[-–—]+\s*$|_{3,}|to\s+follow\b|see\s+below\b)",
+    re.IGNORECASE,
+)
+_EMAIL = re.compile(r"(?<![\w.+-])[\w.+-]+@[\w-]+(?:\.[\w-]+)+(?![\w-])")
+_PHONE = re.compile(r"(?<![\w+])(?:\+\d{1,3}[\s.-]?)?(?:\(\d{2,4}\)[\s.-]?)?\d{3}[\s.-]\d{4}(?:[\s.-]\d{2,4})?(?!\d)|(?<![\w+])\d{3}[\s.-]\d{3}[\s.-]\d{4}(?!\d)")
+_NUMBER = re.compile(r"(?<![\w.])[-+]?\d{1,3}(?:,\d{3})+(?:\.\d+)?(?![\w])|(?<![\w.])[-+]?\d+(?:\.\d+)?(?![\w])")
+_COMPOUND = re.compile(r"[A-Za-z0-9]+(?:[-./][A-Za-z0-9]+)*")
+_ID_SEPARATORS = re.compile(r"[-./ ]")
+#: Head words of job titles (the last noun of "Senior Inventory Analyst").  Common practice, no source.
+TITLE_HEADS = frozenset(
+    """accountant adviser advisor agent analyst apprentice architect assistant associate attendant auditor
+    buyer captain cashier chef clerk coach consultant controller cook coordinator counsel courier designer
+    developer director dispatcher driver economist editor electrician engineer estimator executive fitter
+    foreman generalist handler head hygienist inspector instructor intern janitor lead leader librarian
+    loader machinist manager marshal mechanic merchandiser nurse officer operative operator packer painter
+    paralegal partner pharmacist picker planner plumber porter president principal programmer receptionist
+    recruiter representative researcher scheduler scientist secretary shunter specialist steward supervisor
+    surveyor teacher technician technologist tester therapist trainee trainer treasurer underwriter
+    veterinarian welder worker writer administrator archivist curator groomer assistant storekeeper
+    superintendent expeditor custodian caretaker guard ranger counselor counsellor dentist physician
+    surgeon paramedic pilot sailor deckhand navigator controller""".split()
+)
+_TITLE_WORD = re.compile(r"[A-Z][\w'’&.-]*|[IVX]{1,4}\b|&|of|and|for|to|the|(?:\([^)]{1,30}\))")
+_TITLE_LINKS = {"of", "and", "for", "&", "to", "the"}
+
+
+@dataclass(frozen=True)
+class Reading:
+    value: Any
+    start: int
+    end: int
+    quality: float
+    flags: frozenset[str] = frozenset()
+    facets: tuple[tuple[str, str], ...] = ()
+    alternatives: tuple[Alternative, ...] = ()
+    evidence: tuple[str, ...] = field(default_factory=tuple)
+
+
+Reader = Callable[[Analysis, FieldSpec, int, int], list[Reading]]
+
+
+def stated_missing(an: Analysis, start: int, end: int) -> Reading | None:
+    """A value that says it is unknown or pending ("TBD", "not on file", "PENDING")."""
+    text = an.text[start:end]
+    stripped = text.strip(" *_")
+    match = _STATED_MISSING.match(stripped)
+    if match:
+        offset = start + (len(text) - len(text.lstrip(" *_")))
+        return Reading(None, offset, min(end, offset + max(1, match.end())), 0.9, frozenset({"stated_missing"}))
+    return None
+
+
+def read(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+    reader = READERS.get(spec.hints.kind, read_text)
+    return reader(an, spec, start, end)
+
+
+# --- people, organisations, places ---------------------------------------------------
+
+
+def read_person(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+    text = an.text
+    out = []
+    segment = text[start:end]
+    lead = len(segment) - len(segment.lstrip(" *_\"'([")) if segment else 0
+    if an.first_person(segment.strip(" .,;")[:6].split(" ")[0] if segment.strip() else ""):
+        out.append(Reading(None, start, start + lead + 1, 0.8, frozenset({"first_person"})))
+        return out
+    found = leading_name(segment[lead:], start + lead)
+    if found is not None:
+        out.append(_person_reading(an, found))
+    for person in an.ner_people:
+        if start <= person.start < end and (found is None or person.start >= found[1]):
+            full = an.complete_name(person.name) or person.name
+            out.append(Reading(full, person.start, person.end, 0.8, frozenset(), evidence=("ner PERSON",)))
+    if not out:
+        missing = stated_missing(an, start, end)
+        if missing is not None:
+            out.append(missing)
+    return out
+
+
+def _person_reading(an: Analysis, found: tuple[int, int, str]) -> Reading:
+    start, end, name = found
+    flags: set[str] = set()
+    evidence = []
+    quality = 0.9
+    if len(name.split()) < 2 or any(len(token.rstrip(".")) == 1 for token in name.split()):
+        full = an.complete_name(name)
+        if full is None:
+            flags.add("partial_name")
+            quality = 0.55
+        else:
+            evidence.append(f"completed from {name!r}")
+            name = full
+    if an.ner_overlaps(start, end):
+        quality = min(1.0, quality + 0.08)
+        evidence.append("ner PERSON agrees")
+    return Reading(name, start, end, quality, frozenset(flags), evidence=tuple(evidence))
+
+
+def read_entity(label: str) -> Reader:
+    def reader(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+        labels = {"ORG": ("ORG",), "PLACE": ("GPE", "LOC", "FAC")}[label]
+        out = []
+        for entity in an.entities:
+            if entity.label in labels and start <= entity.start < end:
+                out.append(Reading(entity.text, entity.start, entity.end, 0.85, evidence=(f"ner {entity.label}",)))
+        if not out:
+            segment = an.text[start:end]
+            piece = re.split(r"[,;(|\n]|\s[-–—]\s", segment, maxsplit=1)[0].strip(" *_")
+            if piece and piece[0].isupper() and len(piece.split()) <= 6:
+                offset = start + segment.find(piece)
+                out.append(Reading(piece, offset, offset + len(piece), 0.7))
+        return out or _missing_list(an, start, end)
+
+    return reader
+
+
+# --- dates, money, numbers ---------------------------------------------------------------
+
+
+def read_date(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+    out = []
+    for mention in an.dates:
+        if start <= mention.start < end and mention.value is not None:
+            flags = set(mention.flags)
+            state = an.revision(mention.start, kind="date")
+            if state:
+                flags.add(state)
+            out.append(Reading(mention.value, mention.start, mention.end, 1.0, frozenset(flags)))
+    return out or _missing_list(an, start, end)
+
+
+def read_money(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+    out = []
+    label_period = period_in(an.text[max(0, start - 40) : start])
+    for mention in an.money:
+        if start <= mention.start < end:
+            flags = set()
+            state = an.revision(mention.start, kind="money")
+            if state:
+                flags.add(state)
+            period = mention.period or label_period
+            facets = (("period", period),) if period else ()
+            if mention.currency:
+                facets += (("currency", mention.currency),)
+            out.append(Reading(mention.amount, mention.start, mention.end, 1.0 if mention.currency else 0.85, frozenset(flags), facets))
+    return out or _missing_list(an, start, end)
+
+
+def read_number(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+    out = []
+    for match in _NUMBER.finditer(an.text, start, end):
+        value = Decimal(match.group().replace(",", ""))
+        out.append(Reading(value, match.start(), match.end(), 0.85))
+    return out or _missing_list(an, start, end)
+
+
+# --- vocabularies ----------------------------------------------------------------------------
+
+
+def read_vocab(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+    vocabulary = an.vocabularies[spec.name]
+    mentions = vocabulary.find(an.text, start, end)
+    out = []
+    kind = spec.hints.kind
+    for mention in mentions:
+        if mention.ticked is False:
+            continue
+        value: Any = mention.value
+        flags = set()
+        quality = 1.0 if not mention.loose else 0.75
+        if mention.ticked:
+            flags.add("ticked")
+        if mention.negated:
+            if kind == "flag":
+                value = "false" if value == "true" else "true"
+                flags.add("negation")
+                quality = 0.8
+            else:
+                flags.add("negated")
+                quality = 0.0
+        if kind == "flag":
+            value = value == "true"
+        out.append(Reading(value, mention.start, mention.end, quality, frozenset(flags), evidence=(f"variant {mention.variant!r}",)))
+    if not out:
+        segment = an.text[start:end]
+        words = segment.strip(" *_.").split()
+        probe = " ".join(words[:4])
+        if probe:
+            misses = vocabulary.near_miss(probe)
+            if not misses and len(words) > 1:
+                misses = vocabulary.near_miss(" ".join(words[:2])) or vocabulary.near_miss(words[0])
+            if misses:
+                value, variant, score = misses[0]
+                alternatives = tuple(
+                    Alternative(v if kind != "flag" else v == "true", s) for v, _, s in misses[1:] if v != value
+                )
+                offset = start + segment.find(words[0])
+                final: Any = value if kind != "flag" else value == "true"
+                out.append(
+                    Reading(final, offset, offset + len(probe), 0.7 * score, frozenset({"near_miss"}), alternatives=alternatives,
+                            evidence=(f"near miss of {variant!r}",))
+                )
+    return out or _missing_list(an, start, end)
+
+
+# --- identifiers, emails, phones, text ----------------------------------------------------
+
+
+def read_identifier(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+    pattern = spec.hints.pattern or spec.pattern
+    out = []
+    if pattern is None:
+        return read_text(an, spec, start, end)
+    for match in _COMPOUND.finditer(an.text, start, end):
+        raw = match.group()
+        value = _identifier_value(raw, pattern)
+        if value is not None:
+            flags = frozenset({"separators_normalised"}) if value != raw else frozenset()
+            out.append(Reading(value, match.start(), match.end(), 1.0, flags))
+    return out or _missing_list(an, start, end)
+
+
+def _identifier_value(raw: str, pattern: re.Pattern[str]) -> str | None:
+    if pattern.fullmatch(raw):
+        return raw
+    bare = _ID_SEPARATORS.sub("", raw)
+    if bare != raw and pattern.fullmatch(bare):
+        return bare
+    upper = bare.upper()
+    if upper != bare and pattern.fullmatch(upper) and any(ch.isdigit() for ch in upper):
+        return upper
+    dashed = _ID_SEPARATORS.sub("-", raw)
+    if dashed != raw and pattern.fullmatch(dashed):
+        return dashed
+    return None
+
+
+def read_email(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+    out = [Reading(m.group().lower(), m.start(), m.end(), 1.0) for m in _EMAIL.finditer(an.text, start, end)]
+    return out or _missing_list(an, start, end)
+
+
+def read_phone(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+    out = [Reading(" ".join(m.group().split()), m.start(), m.end(), 0.9) for m in _PHONE.finditer(an.text, start, end)]
+    return out or _missing_list(an, start, end)
+
+
+def read_text(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+    segment = an.text[start:end]
+    value = " ".join(segment.split()).strip(" *_")
+    if not value:
+        return []
+    missing = stated_missing(an, start, end)
+    if missing is not None:
+        return [missing]
+    offset = start + (len(segment) - len(segment.lstrip(" *_")))
+    return [Reading(value, offset, offset + len(segment.strip(" *_")), 0.9)]
+
+
+def read_job_title(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
+    segment = an.text[start:end]
+    missing = stated_missing(an, start, end)
+    if missing is not None:
+        return [missing]
+    pieces = re.split(r"(\s[-–—/]\s|\s/\s|,|;|\s\|\s|\n|\s{3,}|\.\s)", segment)
+    kept: list[tuple[int, int]] = []
+    cursor = start
+    separator_before = ""
+    for piece in pieces:
+        piece_start = cursor
+        cursor += len(piece)
+        if re.fullmatch(r"\s[-–—/]\s|\s/\s|,|;|\s\|\s|\n|\s{3,}|\.\s", piece):
+            separator_before = piece
+            if piece.strip() in (",", ";", "|", ".") or "\n" in piece or len(piece) >= 3 and not piece.strip():
+                if kept:
+                    break
+            continue
+        words = piece.strip()
+        if not words:
+            continue
+        if _is_place_or_schedule(an, words):
+            if kept:
+                break
+            continue
+        if not words[0].isupper() and not words[0].isdigit():
+            if kept:
+                break
+            continue
+        leading = len(piece) - len(piece.lstrip())
+        s = piece_start + leading
+        kept.append((s, s + len(words)))
+        if kept and separator_before.strip() in ("-", "–", "—", "/") and len(kept) > 1:
+            pass
+        separator_before = ""
+    if not kept:
+        return []
+    first, last = kept[0][0], kept[-1][1]
+    value = " ".join(an.text[first:last].split())
+    value = _trim_title(value)
+    if not value:
+        return []
+    quality = 0.95 if _has_head(value) else 0.7
+    return [Reading(value, first, first + len(an.text[first:last].rstrip(".")), quality)]
+
+
+def _trim_title(value: str) -> str:
+    value = value.strip(" .*_")
+    value = re.sub(r"\s*\((?:[^)]*\b(?:from|was|previously|formerly|revised|until)\b[^)]*)\)\s*$", "", value)
+    return value
+
+
+def _has_head(value: str) -> bool:
+    words = [w.strip("()").lower() for w in re.split(r"[\s–—-]+", value)]
+    return any(w.rstrip("s") in TITLE_HEADS or w in TITLE_HEADS for w in words)
+
+
+def _is_place_or_schedule(an: Analysis, words: str) -> bool:
+    lowered = words.lower()
+    if re.search(r"\b(?:shift|nights?|days?|weekends?|hours|schedule|rota|pm|am)\b", lowered) and not _has_head(words):
+        return True
+    for name, vocabulary in an.vocabularies.items():
+        if an.field(name).hints.kind != "choice":
+            continue
+        mentions = vocabulary.find(words, loose=False)
+        if mentions and sum(m.end - m.start for m in mentions) >= len(words.strip("() ")) * 0.6:
+            return True
+    return False
+
+
+def title_phrase(an: Analysis, start: int, limit: int) -> Reading | None:
+    """A capitalised title phrase starting at ``start`` ("Maintenance Technician II")."""
+    text = an.text
+    words: list[tuple[int, int]] = []
+    position = start
+    while position < limit:
+        match = _TITLE_WORD.match(text, position)
+        gap = 0
+        while match is None and position < limit and text[position] in " \t":
+            position += 1
+            gap += 1
+            match = _TITLE_WORD.match(text, position)
+        if match is None or gap > 2:
+            break
+        token = match.group()
+        if not words and token.lower() in _TITLE_LINKS:
+            break
+        words.append(match.span())
+        position = match.end()
+        dash = re.match(r"\s[–—]\s(?=[A-Z])", text[position : position + 4])
+        if dash:
+            position += dash.end()
+    while words and text[words[-1][0] : words[-1][1]].lower() in _TITLE_LINKS:
+        words.pop()
+    if not words:
+        return None
+    first, last = words[0][0], words[-1][1]
+    value = " ".join(text[first:last].split())
+    if not _has_head(value):
+        return None
+    return Reading(value, first, last, 0.9)
+
+
+def _missing_list(an: Analysis, start: int, end: int) -> list[Reading]:
+    missing = stated_missing(an, start, end)
+    return [missing] if missing is not None else []
+
+
+def normalised_name(raw: str) -> str:
+    return normalise_name(raw)
+
+
+def same_value(a: Any, b: Any) -> bool:
+    if isinstance(a, str) and isinstance(b, str):
+        return fold(a) == fold(b)
+    return bool(a == b)
+
+
+READERS: dict[str, Reader] = {
+    "person": read_person,
+    "organization": read_entity("ORG"),
+    "place": read_entity("PLACE"),
+    "date": read_date,
+    "money": read_money,
+    "number": read_number,
+    "choice": read_vocab,
+    "flag": read_vocab,
+    "identifier": read_identifier,
+    "email": read_email,
+    "phone": read_phone,
+    "text": read_text,
+    "job_title": read_job_title,
+}

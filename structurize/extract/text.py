@@ -1,0 +1,191 @@
+"""Text helpers shared by the extractors: normalising labels, matching cues, names."""
+
+from __future__ import annotations
+
+import re
+import unicodedata
+from collections.abc import Iterator
+from functools import lru_cache
+
+from rapidfuzz.distance import Levenshtein
+
+_DASHES = dict.fromkeys(map(ord, "‐‑‒–—―−"), "-")
+_QUOTES = dict.fromkeys(map(ord, "‘’‛′"), "'")
+_NON_LABEL = re.compile(r"[^\w&/'+#\- ]+")
+_SPACES = re.compile(r"\s+")
+WORD = re.compile(r"[^\W_]+(?:['’\-][^\W_]+)*")
+
+
+@lru_cache(maxsize=65536)
+def norm(text: str) -> str:
+    """Fold a label or cue for comparison: case, dashes, punctuation and spacing."""
+    text = unicodedata.normalize("NFKC", text).translate(_DASHES).translate(_QUOTES).lower()
+    text = text.replace("*", " ").replace("_", " ").replace("`", " ")
+    text = _NON_LABEL.sub(" ", text)
+    return _SPACES.sub(" ", text).strip(" -/")
+
+
+def fold(text: str) -> str:
+    """Normalise free text for comparing values: NFKC, casefold, dashes, spaces."""
+    text = unicodedata.normalize("NFKC", text).translate(_DASHES).translate(_QUOTES).casefold()
+    return _SPACES.sub(" ", text).strip()
+
+
+def cue_match(cue: str, label: str) -> float:
+    """How well a field cue names a label, 0..1.  Both are already :func:`norm`-ed.
+
+    Exact equality scores 1.  A cue that appears as whole words inside the label scores by
+    how much of the label it covers.  A small misspelling of the whole label (one edit in a
+    short label, two in a long one) still scores well.
+    """
+    if not cue or not label:
+        return 0.0
+    if cue == label:
+        return 1.0
+    label_words = label.split()
+    cue_words = cue.split()
+    score = 0.0
+    if _contains_words(label_words, cue_words):
+        coverage = len(cue_words) / len(label_words)
+        score = 0.55 + 0.35 * coverage
+    limit = 1 if len(label) <= 8 else 2
+    if abs(len(cue) - len(label)) <= limit and len(label) >= 4:
+        distance = Levenshtein.distance(cue, label, score_cutoff=limit)
+        if distance <= limit:
+            score = max(score, 0.9 - 0.05 * distance)
+    return score
+
+
+def _contains_words(haystack: list[str], needle: list[str]) -> bool:
+    size = len(needle)
+    return any(haystack[i : i + size] == needle for i in range(len(haystack) - size + 1))
+
+
+def find_phrase(text: str, phrase: str) -> Iterator[tuple[int, int]]:
+    """Word-bounded, case-insensitive occurrences of ``phrase`` in ``text``.
+
+    Spaces in the phrase match any run of whitespace; a phrase that is all capitals and at
+    most four letters (an abbreviation such as ``NQ`` or ``HR``) matches case-sensitively.
+    """
+    pattern = _phrase_regex(phrase)
+    for match in pattern.finditer(text):
+        yield match.start(), match.end()
+
+
+@lru_cache(maxsize=8192)
+def _phrase_regex(phrase: str) -> re.Pattern[str]:
+    parts = [re.escape(part) for part in phrase.split()]
+    body = r"\s+".join(parts)
+    left = r"(?<![\w])" if phrase[:1].isalnum() else ""
+    right = r"(?![\w])" if phrase[-1:].isalnum() else ""
+    letters = re.sub(r"[^A-Za-z]", "", phrase)
+    sensitive = letters.isupper() and len(letters) <= 4 and phrase == phrase.upper()
+    flags = 0 if sensitive else re.IGNORECASE
+    return re.compile(left + body + right, flags)
+
+
+# --- person names --------------------------------------------------------------------
+
+_PARTICLES = {
+    "de", "da", "del", "della", "di", "dos", "das", "du", "van", "von", "der", "den", "la", "le",
+    "al", "el", "bin", "ibn", "ter", "ten", "y", "st.",
+}
+#: Capitalised words that start or continue no personal name in HR letters.
+_NOT_NAME = {
+    "the", "dear", "hi", "hello", "to", "from", "cc", "re", "subject", "date", "regards", "thanks",
+    "sincerely", "best", "warm", "kind", "yours", "team", "hr", "human", "resources", "manager",
+    "director", "coordinator", "supervisor", "lead", "officer", "generalist", "recruiter", "partner",
+    "analyst", "engineer", "technician", "specialist", "operator", "planner", "controller", "head",
+    "department", "dept", "site", "office", "company", "co", "co.", "inc", "inc.", "ltd", "llc",
+    "group", "plant", "depot", "terminal", "center", "centre", "street", "road", "avenue", "lane",
+    "drive", "court", "suite", "apt", "mr", "mrs", "ms", "miss", "dr", "mr.", "mrs.", "ms.", "dr.",
+    "prof", "prof.", "monday", "tuesday", "wednesday", "thursday", "friday", "saturday", "sunday",
+    "january", "february", "march", "april", "june", "july", "august", "september", "october",
+    "november", "december", "payroll", "finance", "operations", "regional", "senior", "junior",
+    "assistant", "associate", "vice", "president", "chief", "executive", "board", "panel",
+    "approved", "pending", "yes", "no", "n/a", "tbd", "none", "employee", "candidate", "name",
+    "position", "role", "title", "salary", "pay", "start", "note", "notes", "please", "thank",
+    "i", "we", "you", "he", "she", "they", "our", "your", "his", "her", "their", "it", "this",
+    "that", "per", "on", "behalf", "for", "and", "or", "with", "by", "at", "in", "of", "a", "an",
+    "interviewer", "interview", "exit", "transfer", "request", "offer", "letter", "form",
+    "memo", "update", "correction", "revised", "summary", "reason", "primary", "secondary",
+    "accepted", "signed", "signature", "email", "phone", "tel", "mobile", "fax", "via",
+    "hiring", "reporting", "reports", "business", "talent", "acquisition", "administrator",
+    "general", "gm", "program", "project", "service", "services", "customer", "quality",
+    "warehouse", "maintenance", "transport", "transportation", "logistics", "management",
+}
+_TITLES = re.compile(r"^(mr|mrs|ms|miss|mx|dr|prof)\.?$", re.IGNORECASE)
+_INITIAL = re.compile(r"^[A-Z]\.$")
+_ROMAN = re.compile(r"^(II|III|IV|Jr\.?|Sr\.?)$")
+_TOKEN = re.compile(r"[^\s,;:()|/<>\[\]\"]+")
+
+
+def _name_token(token: str) -> bool:
+    core = token.strip("'’.")
+    if not core or not core[0].isalpha() or not core[0].isupper():
+        return False
+    if any(ch.isdigit() for ch in core) or "@" in core:
+        return False
+    return all(ch.isalpha() or ch in "'’-." for ch in core)
+
+
+def leading_name(text: str, offset: int = 0, max_tokens: int = 4) -> tuple[int, int, str] | None:
+    """The personal name that ``text`` starts with, as ``(start, end, normalised)``.
+
+    Courtesy titles are skipped; the name stops at punctuation, a lower-case word (other
+    than a particle such as "de" or "van"), a digit or a dash between spaces.
+    """
+    tokens: list[tuple[int, int, str]] = []
+    position = 0
+    for match in _TOKEN.finditer(text):
+        gap = text[position : match.start()]
+        if tokens and (any(ch in gap for ch in ",;:()|/<>[]\"\n") or gap.count(" ") > 3):
+            break
+        if not tokens and gap.strip():
+            break
+        word = match.group()
+        position = match.end()
+        if word in ("-", "–", "—", "&"):
+            break
+        if not tokens and _TITLES.match(word):
+            continue
+        lowered = word.lower().strip(".")
+        if tokens and word.lower() in _PARTICLES and len(tokens) < max_tokens:
+            tokens.append((match.start(), match.end(), word))
+            continue
+        if _INITIAL.match(word) or _ROMAN.match(word) and tokens:
+            tokens.append((match.start(), match.end(), word))
+            continue
+        if not _name_token(word) or lowered in _NOT_NAME or word.lower() in _NOT_NAME:
+            break
+        tokens.append((match.start(), match.end(), word))
+        if len(tokens) >= max_tokens:
+            break
+    while tokens and (tokens[-1][2].lower() in _PARTICLES or _INITIAL.match(tokens[-1][2])):
+        tokens.pop()
+    if not tokens:
+        return None
+    start, end = tokens[0][0], tokens[-1][1]
+    raw = text[start:end].rstrip(".,")
+    return offset + start, offset + start + len(raw), normalise_name(raw)
+
+
+def normalise_name(raw: str) -> str:
+    """"SURNAME, Given" → "Given Surname"; ALL-CAPS parts → normal case; spacing folded."""
+    raw = " ".join(raw.replace("\u00a0", " ").split()).strip(" ,;")
+    if raw.count(",") == 1:
+        left, right = (part.strip() for part in raw.split(","))
+        if left and right and " " not in left and not _ROMAN.match(right):
+            raw = f"{right} {left}"
+    parts = []
+    for part in raw.split(" "):
+        letters = [ch for ch in part if ch.isalpha()]
+        if len(letters) > 1 and all(ch.isupper() for ch in letters) and not _ROMAN.match(part):
+            part = "-".join(piece.capitalize() for piece in part.lower().split("-"))
+            part = "'".join(p[:1].upper() + p[1:] for p in part.split("'"))
+        parts.append(part)
+    return " ".join(parts)
+
+
+def name_tokens(name: str) -> list[str]:
+    return [token for token in fold(name).replace("-", " - ").split() if token not in ("-",)]

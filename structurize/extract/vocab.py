@@ -1,0 +1,128 @@
+"""Match a field's vocabulary (choice aliases, flag variants) in text.
+
+Matching ignores case (except for short all-capital abbreviations such as ``NQ``), is
+word-bounded, prefers the longest variant, and reports negated mentions ("pay was not the
+issue") so that they count against a value, not for it.  A value string that matches no
+variant exactly is compared by edit distance (rapidfuzz Levenshtein); a close match is a
+*near miss*: it is proposed, with its alternatives, and always sent to review.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from functools import cached_property
+
+from rapidfuzz import fuzz, process
+from rapidfuzz.distance import Levenshtein
+
+from ..schema.model import FieldHints
+from .text import find_phrase, fold
+
+_NEGATION_BEFORE = re.compile(
+    r"(?:\b(?:not|no|never|nothing to do with|isn't|wasn't|aren't|weren't|without|rather than|instead of|"
+    r"not about|not because of|other than)\b[^.;:\n]{0,25})$",
+    re.IGNORECASE,
+)
+_NEGATION_AFTER = re.compile(
+    r"^[^.;\n]{0,40}?\b(?:(?:was|is|were|are)(?:n't| not)|wasn't|isn't)\s+(?:the|a|an)?\s*(?:issue|problem|driver|reason|factor|concern)\b",
+    re.IGNORECASE,
+)
+_UNTICKED = re.compile(r"(?:\[\s\]|☐|\(\s\))\s*$")
+_TICKED = re.compile(r"(?:\[[xX✓✔]\]|☒|☑|\([xX]\))\s*$")
+
+
+@dataclass(frozen=True, slots=True)
+class VocabMention:
+    start: int
+    end: int
+    value: str  #: canonical value (choice) or "true"/"false" (flag)
+    variant: str
+    negated: bool = False
+    ticked: bool | None = None  #: True/False when the mention follows a check box
+    loose: bool = False  #: words of a multi-word variant found with small gaps
+
+
+class Vocabulary:
+    """The variants of one field, ready to search."""
+
+    def __init__(self, hints: FieldHints) -> None:
+        pairs: list[tuple[str, str]] = []
+        if hints.kind == "flag" or hints.true_variants or hints.false_variants:
+            pairs += [(variant, "true") for variant in hints.true_variants]
+            pairs += [(variant, "false") for variant in hints.false_variants]
+        else:
+            for canonical, variants in hints.aliases:
+                pairs.append((canonical, canonical))
+                pairs += [(variant, canonical) for variant in variants]
+        seen: set[str] = set()
+        unique = []
+        for variant, value in sorted(pairs, key=lambda p: -len(p[0])):
+            key = variant if _is_abbreviation(variant) else variant.lower()
+            if key not in seen:
+                seen.add(key)
+                unique.append((variant, value))
+        self.pairs = tuple(unique)
+        self.fuzzy_distance = hints.fuzzy_distance
+
+    @cached_property
+    def values(self) -> tuple[str, ...]:
+        return tuple(dict.fromkeys(value for _, value in self.pairs))
+
+    def find(self, text: str, start: int = 0, end: int | None = None, *, loose: bool = True) -> list[VocabMention]:
+        """Mentions in ``text[start:end]`` (offsets into ``text``), longest variant first."""
+        end = len(text) if end is None else end
+        window = text[start:end]
+        taken: list[tuple[int, int]] = []
+        found: list[VocabMention] = []
+        for variant, value in self.pairs:
+            for s, e in find_phrase(window, variant):
+                if any(s < te and ts < e for ts, te in taken):
+                    continue
+                taken.append((s, e))
+                found.append(self._mention(text, start + s, start + e, value, variant, False))
+        if loose:
+            for variant, value in self.pairs:
+                words = variant.split()
+                if len(words) < 2:
+                    continue
+                pattern = r"(?<!\w)" + r"(?:\W+\w+){0,3}?\W+".join(re.escape(w) for w in words) + r"(?!\w)"
+                for match in re.finditer(pattern, window, re.IGNORECASE):
+                    s, e = match.span()
+                    if e - s > len(variant) + 40 or any(s < te and ts < e for ts, te in taken):
+                        continue
+                    taken.append((s, e))
+                    found.append(self._mention(text, start + s, start + e, value, variant, True))
+        found.sort(key=lambda m: m.start)
+        return found
+
+    def _mention(self, text: str, s: int, e: int, value: str, variant: str, loose: bool) -> VocabMention:
+        before = text[max(0, s - 60) : s]
+        line_before = before.rsplit("\n", 1)[-1]
+        after = text[e : e + 60]
+        ticked: bool | None = None
+        if _TICKED.search(line_before):
+            ticked = True
+        elif _UNTICKED.search(line_before):
+            ticked = False
+        negated = bool(_NEGATION_BEFORE.search(line_before)) or bool(_NEGATION_AFTER.match(after))
+        return VocabMention(s, e, value, variant, negated, ticked, loose)
+
+    def near_miss(self, phrase: str) -> list[tuple[str, str, float]]:
+        """Variants within the edit-distance limit of ``phrase``: ``(value, variant, score)``."""
+        target = fold(phrase)
+        if not target or self.fuzzy_distance <= 0:
+            return []
+        choices = {index: fold(variant) for index, (variant, _) in enumerate(self.pairs)}
+        results = []
+        for _, score, index in process.extract(target, choices, scorer=fuzz.ratio, limit=5, score_cutoff=60):
+            variant, value = self.pairs[index]
+            distance = Levenshtein.distance(target, choices[index])
+            if distance <= self.fuzzy_distance and distance <= max(1, len(choices[index]) // 4):
+                results.append((value, variant, score / 100))
+        return results
+
+
+def _is_abbreviation(variant: str) -> bool:
+    letters = re.sub(r"[^A-Za-z]", "", variant)
+    return bool(letters) and letters.isupper() and len(letters) <= 4

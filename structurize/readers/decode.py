@@ -1,0 +1,59 @@
+"""Turn the bytes of a text file into ``str`` and say how that was done."""
+
+from __future__ import annotations
+
+import codecs
+import re
+from dataclasses import dataclass
+
+from ..errors import ReadFailure
+
+#: Tried, in order, after a BOM and strict UTF-8.  latin-1 accepts any byte, so it is last.
+DEFAULT_FALLBACK_ENCODINGS: tuple[str, ...] = ("cp1252", "latin-1")
+
+_BOMS = (
+    (codecs.BOM_UTF32_LE, "utf-32"),
+    (codecs.BOM_UTF32_BE, "utf-32"),
+    (codecs.BOM_UTF8, "utf-8-sig"),
+    (codecs.BOM_UTF16_LE, "utf-16"),
+    (codecs.BOM_UTF16_BE, "utf-16"),
+)
+#: UTF-8 text that was decoded as cp1252/latin-1 somewhere upstream ("JosÃ©", "â€™").
+_MOJIBAKE = re.compile("[ÃÂ][\u0080-\u00bf]|â€[\u0080-\u00ff™œ]|\ufffd")
+
+
+@dataclass(frozen=True)
+class Decoded:
+    text: str
+    encoding: str
+    guessed: bool
+    warnings: tuple[str, ...] = ()
+
+
+def decode_bytes(data: bytes, fallbacks: tuple[str, ...] = DEFAULT_FALLBACK_ENCODINGS) -> Decoded:
+    """BOM, then strict UTF-8, then each fallback; record which one worked."""
+    for bom, encoding in _BOMS:
+        if data.startswith(bom):
+            try:
+                return _finish(data.decode(encoding), encoding, guessed=False)
+            except UnicodeDecodeError:
+                raise ReadFailure("failed", "bad_encoding", f"invalid {encoding} after its byte-order mark") from None
+    if b"\x00" in data[:4096]:
+        raise ReadFailure("failed", "not_text", "binary content (NUL bytes) in a text file")
+    try:
+        return _finish(data.decode("utf-8"), "utf-8", guessed=False)
+    except UnicodeDecodeError:
+        pass
+    for encoding in fallbacks:
+        try:
+            return _finish(data.decode(encoding), encoding, guessed=True)
+        except (UnicodeDecodeError, LookupError):
+            continue
+    raise ReadFailure("failed", "bad_encoding", "not decodable with any configured encoding")
+
+
+def _finish(text: str, encoding: str, *, guessed: bool) -> Decoded:
+    warnings = ["encoding_guessed"] if guessed else []
+    if _MOJIBAKE.search(text):
+        warnings.append("suspect_mojibake")
+    return Decoded(text.replace("\r\n", "\n").replace("\r", "\n"), encoding, guessed, tuple(warnings))

@@ -1,0 +1,161 @@
+"""HTML to text with the stdlib parser.  Nothing is rendered, fetched or executed.
+
+Block elements end lines, entities are decoded, ``<table>`` rows become table structure,
+and form controls are shown as text: a ticked checkbox or radio button as ``[x]``, an
+unticked one as ``[ ]``, a text input as its value.
+"""
+
+from __future__ import annotations
+
+from html.parser import HTMLParser
+from pathlib import Path
+
+from ..types import Document
+from .builder import TextBuilder
+from .decode import decode_bytes
+
+_BLOCK = {
+    "address", "article", "aside", "blockquote", "body", "dd", "div", "dl", "dt", "fieldset",
+    "figcaption", "figure", "footer", "form", "h1", "h2", "h3", "h4", "h5", "h6", "header",
+    "hr", "legend", "li", "main", "nav", "ol", "p", "pre", "section", "ul", "caption",
+}
+_SKIP = {"script", "style", "head", "template", "noscript", "svg", "object", "iframe"}
+_VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta", "source", "track", "wbr"}
+
+
+class _Converter(HTMLParser):
+    def __init__(self, builder: TextBuilder) -> None:
+        super().__init__(convert_charrefs=True)
+        self.out = builder
+        self.line: list[str] = []
+        self.skip_depth = 0
+        self.pre_depth = 0
+        self.tables: list[list[list[str]]] = []  # stack of tables, each a list of rows
+        self.cell: list[str] | None = None
+        self.cell_stack: list[list[str] | None] = []
+
+    # text accumulation ---------------------------------------------------------------
+
+    def _emit(self, text: str) -> None:
+        if self.cell is not None:
+            self.cell.append(text)
+        else:
+            self.line.append(text)
+
+    def _flush(self) -> None:
+        text = "".join(self.line)
+        self.line = []
+        text = text if self.pre_depth else " ".join(text.split())
+        if text.strip():
+            for piece in text.split("\n"):
+                self.out.add_line(piece.rstrip())
+
+    # parser callbacks -------------------------------------------------------------------
+
+    def handle_starttag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
+        if self.skip_depth:
+            if tag in _SKIP:
+                self.skip_depth += 1
+            return
+        if tag in _SKIP:
+            self.skip_depth = 1
+            return
+        attributes = {key: (value or "") for key, value in attrs}
+        if tag == "table":
+            self._flush_or_break()
+            self.cell_stack.append(self.cell)
+            self.cell = None
+            self.tables.append([])
+        elif tag == "tr" and self.tables:
+            self.tables[-1].append([])
+        elif tag in ("td", "th") and self.tables:
+            if not self.tables[-1]:
+                self.tables[-1].append([])
+            self.cell = []
+        elif tag == "br":
+            self._emit(" / " if self.cell is not None else "\n")
+            if self.cell is None and not self.pre_depth:
+                self._flush()
+        elif tag == "input":
+            self._emit(_control_text(attributes))
+        elif tag == "pre":
+            self._flush_or_break()
+            self.pre_depth += 1
+        elif tag in _BLOCK:
+            if self.cell is not None:
+                self._emit(" ")
+            else:
+                self._flush()
+                if tag == "li":
+                    self.line.append("- ")
+        elif tag == "option" and "selected" in attributes:
+            self._emit("[x] ")
+
+    def handle_endtag(self, tag: str) -> None:
+        if self.skip_depth:
+            if tag in _SKIP:
+                self.skip_depth -= 1
+            return
+        if tag in ("td", "th") and self.tables and self.cell is not None:
+            self.tables[-1][-1].append("".join(self.cell))
+            self.cell = None
+        elif tag == "table" and self.tables:
+            rows = self.tables.pop()
+            self.cell = self.cell_stack.pop() if self.cell_stack else None
+            if self.cell is not None:  # nested table: flatten into the outer cell
+                self.cell.append(" ".join(" ".join(row) for row in rows))
+            else:
+                self.out.add_table(rows)
+        elif tag == "pre":
+            self._flush()
+            self.pre_depth = max(0, self.pre_depth - 1)
+        elif tag in _BLOCK and self.cell is None:
+            self._flush()
+            if tag in ("p", "h1", "h2", "h3", "h4", "h5", "h6", "div", "table", "ul", "ol"):
+                self.out.blank()
+
+    def handle_startendtag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
+        self.handle_starttag(tag, attrs)
+        if tag not in _VOID:
+            self.handle_endtag(tag)
+
+    def handle_data(self, data: str) -> None:
+        if not self.skip_depth:
+            self._emit(data)
+
+    def _flush_or_break(self) -> None:
+        if self.cell is None:
+            self._flush()
+
+    def close(self) -> None:
+        super().close()
+        self._flush()
+
+
+def _control_text(attributes: dict[str, str]) -> str:
+    kind = attributes.get("type", "text").lower()
+    if kind in ("checkbox", "radio"):
+        return "[x] " if "checked" in attributes else "[ ] "
+    if kind in ("text", "email", "date", "number", "tel", ""):
+        return attributes.get("value", "") + " "
+    return ""
+
+
+def html_to_builder(html: str, builder: TextBuilder) -> None:
+    """Convert ``html`` and append the result to ``builder``."""
+    converter = _Converter(builder)
+    converter.feed(html)
+    converter.close()
+
+
+def read_html(path: Path, source: str) -> Document:
+    decoded = decode_bytes(path.read_bytes())
+    builder = TextBuilder()
+    html_to_builder(decoded.text, builder)
+    return builder.build(
+        source,
+        "reader.html.v1",
+        encoding=decoded.encoding,
+        encoding_guessed=decoded.guessed,
+        warnings=decoded.warnings,
+    )

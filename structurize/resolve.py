@@ -1,0 +1,192 @@
+"""Combine a field's candidates into one value with a confidence, a status and alternatives.
+
+How confidence is computed (also in DEVELOPERS.md, "Confidence"):
+
+1. Each candidate's ``score`` is the strength of one piece of evidence: how strong its cue
+   or label match is, how far the value sits from the cue, how good the reading is, and
+   where it is (quoted and forwarded text counts for little).  A value the document marks
+   as superseded ("was June 23") is scaled down; one it marks as revised ("now July 7")
+   is scaled up.
+2. Candidates are grouped by value.  A group's *support* combines its candidates as
+   independent-ish evidence: ``1 - Π(1 - w_i·s_i)`` with the strongest counted fully and
+   each further one at half weight (agreement between extractors and places raises it).
+3. The best group wins.  A competing group with support ``c`` against the winner's ``b``
+   lowers confidence to ``b · (1 - ½ (c/b)²)``: a close rival halves it, a weak one barely
+   matters.
+4. Ambiguity lowers it further: an ambiguous numeric date, a year taken from the document's
+   date, a guessed text encoding, a partial name, a value that acts for someone else.
+5. A near miss of a choice (an edit-distance match) always goes to review; validation
+   (next stage) turns failures into ``invalid``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass
+from typing import Any
+
+from .extract.text import fold
+from .schema.model import FieldSpec, TargetSchema
+from .types import Alternative, Candidate, FieldValue, Span, ValueStatus
+
+REVISED_FACTOR = 1.12
+SUPERSEDED_FACTOR = 0.3
+#: Multipliers for flags on the winning candidate.
+FLAG_FACTORS = {
+    "ambiguous_order": 0.97,
+    "ambiguous_order_unconfigured": 0.6,
+    "order_swapped": 0.9,
+    "year_inferred": 0.96,
+    "weak_anchor": 0.75,
+    "weekday_mismatch": 0.6,
+    "relative": 0.92,
+    "encoding_guessed": 0.9,
+    "partial_name": 0.7,
+    "acting_for": 0.9,
+    "separators_normalised": 0.97,
+    "ocr": 0.8,
+}
+#: Confidence that a field is absent when nothing at all was found for it.
+ABSENT_CONFIDENCE = 0.9
+#: ... when its cues do occur in the document but no value could be read near them.
+ABSENT_WITH_CUES_CONFIDENCE = 0.82
+PERIOD_VALUES = ("hour", "year", "month", "week", "day")
+
+
+@dataclass(frozen=True)
+class _Group:
+    key: Any
+    support: float
+    best: Candidate
+    members: tuple[Candidate, ...]
+
+
+def _key(value: Any) -> Any:
+    if isinstance(value, str):
+        return ("s", fold(value))
+    return ("v", value)
+
+
+def _adjusted(candidate: Candidate) -> float:
+    score = candidate.score
+    if "revised" in candidate.flags:
+        score = min(0.97, score * REVISED_FACTOR)
+    if "superseded" in candidate.flags:
+        score *= SUPERSEDED_FACTOR
+    return score
+
+
+def _groups(candidates: Iterable[Candidate]) -> list[_Group]:
+    buckets: dict[Any, list[tuple[float, Candidate]]] = {}
+    for candidate in candidates:
+        score = _adjusted(candidate)
+        if score <= 0.01:
+            continue
+        buckets.setdefault(_key(candidate.value), []).append((score, candidate))
+    groups = []
+    for key, members in buckets.items():
+        members.sort(key=lambda item: -item[0])
+        seen: set[tuple[str, int]] = set()
+        remaining = 1.0
+        weight = 1.0
+        for score, candidate in members:
+            marker = (candidate.extractor, candidate.span.start)
+            if marker in seen:
+                continue
+            seen.add(marker)
+            remaining *= 1.0 - weight * score
+            weight = 0.5
+        groups.append(_Group(key, 1.0 - remaining, members[0][1], tuple(c for _, c in members)))
+    groups.sort(key=lambda g: (-g.support, g.best.span.start))
+    return groups
+
+
+def resolve_field(spec: FieldSpec, candidates: list[Candidate], *, review_below: float, cues_seen: bool) -> FieldValue:
+    groups = _groups(candidates)
+    if not groups:
+        confidence = ABSENT_WITH_CUES_CONFIDENCE if cues_seen else ABSENT_CONFIDENCE
+        return FieldValue(spec.name, None, confidence, ValueStatus.MISSING, reason="not found in the document")
+    best = groups[0]
+    rival = groups[1].support if len(groups) > 1 else 0.0
+    confidence = best.support * (1.0 - 0.5 * (rival / best.support) ** 2) if best.support else 0.0
+    chosen = best.best
+    for flag in chosen.flags:
+        confidence *= FLAG_FACTORS.get(flag, 1.0)
+    if "revised" in chosen.flags and len(groups) > 1:
+        confidence *= 0.95  # the document contradicts itself; the revision is taken
+    alternatives = tuple(
+        Alternative(group.best.value, round(group.support, 3), group.best.span) for group in groups[1:4] if group.best.value is not None
+    ) + tuple(alt for alt in chosen.alternatives)
+    reasons = []
+    status = ValueStatus.OK
+    value = chosen.value
+    if value is None:
+        status = ValueStatus.MISSING
+        reasons.append("the document says the value is not known" if "stated_missing" in chosen.flags else "no value")
+    if "near_miss" in chosen.flags:
+        status = ValueStatus.REVIEW
+        confidence = min(confidence, review_below - 0.05)
+        reasons.append("near miss of a listed value")
+    if status is ValueStatus.OK and confidence < review_below:
+        status = ValueStatus.REVIEW
+        reasons.append("low confidence")
+    if status is ValueStatus.MISSING and confidence < review_below:
+        status = ValueStatus.REVIEW
+        reasons.append("a value may be present")
+    return FieldValue(
+        field=spec.name,
+        value=value,
+        confidence=round(max(0.0, min(1.0, confidence)), 3),
+        status=status,
+        span=chosen.span if chosen.span != Span(0, 0) or value is not None else None,
+        raw=chosen.raw,
+        extractor=chosen.extractor,
+        reason="; ".join(reasons),
+        evidence=chosen.evidence,
+        alternatives=alternatives,
+    )
+
+
+def companions(schema: TargetSchema) -> dict[str, str]:
+    """Choice fields that record the pay period of a money field: {choice field: money field}."""
+    money = [spec.name for spec in schema.fields if spec.hints.kind == "money"]
+    out: dict[str, str] = {}
+    if not money:
+        return out
+    for spec in schema.fields:
+        if spec.hints.kind != "choice":
+            continue
+        values = {fold(canonical) for canonical, _ in spec.hints.aliases}
+        variants = {fold(v) for _, vs in spec.hints.aliases for v in vs}
+        if values & set(PERIOD_VALUES) or any(word in v for v in variants for word in ("per hour", "per year", "hourly", "annual")):
+            out[spec.name] = money[0]
+    return out
+
+
+def period_candidate(spec: FieldSpec, money_value: FieldValue, money_candidates: list[Candidate], vocabulary: Any) -> Candidate | None:
+    """The pay period of the chosen money value, as a candidate for its companion field."""
+    chosen = next(
+        (c for c in money_candidates if c.extractor == money_value.extractor and c.span == money_value.span), None
+    )
+    if chosen is None or money_value.value is None:
+        return None
+    period = chosen.facet("period")
+    if period is None:
+        return None
+    canonical = None
+    for probe in (period, f"per {period}", f"an {period}", f"a {period}"):
+        mentions = vocabulary.find(probe, loose=False)
+        if mentions:
+            canonical = mentions[0].value
+            break
+    if canonical is None:
+        return None
+    return Candidate(
+        field=spec.name,
+        value=canonical,
+        raw=chosen.raw,
+        span=chosen.span,
+        extractor="companion.v1",
+        score=min(0.97, money_value.confidence * 1.05),
+        evidence=(f"pay period of {money_value.field}",),
+    )

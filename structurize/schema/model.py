@@ -1,0 +1,106 @@
+"""The parsed target schema: a Table Schema plus validated extraction hints."""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+from typing import Any
+
+#: Value kinds a field's ``extract.as`` may name (SCHEMA_FORMAT.md).
+KINDS: tuple[str, ...] = (
+    "person",
+    "organization",
+    "place",
+    "date",
+    "money",
+    "job_title",
+    "email",
+    "phone",
+    "identifier",
+    "choice",
+    "number",
+    "flag",
+    "text",
+)
+
+#: Table Schema types that can be extraction targets.
+TYPES: tuple[str, ...] = ("string", "number", "integer", "date", "datetime", "boolean", "year", "any")
+
+DATE_ORDERS: tuple[str, ...] = ("MDY", "DMY", "YMD")
+
+DEFAULT_REVIEW_BELOW = 0.8
+#: Largest edit distance at which a word is still read as a misspelt choice alias.
+DEFAULT_FUZZY_DISTANCE = 2
+
+
+@dataclass(frozen=True)
+class FieldHints:
+    """The validated ``extract`` block of one field."""
+
+    kind: str
+    cues: tuple[str, ...] = ()
+    #: choice fields: (canonical value, variants); the canonical value is a variant too.
+    aliases: tuple[tuple[str, tuple[str, ...]], ...] = ()
+    #: flag fields: variants read as true / as false.
+    true_variants: tuple[str, ...] = ()
+    false_variants: tuple[str, ...] = ()
+    pattern: re.Pattern[str] | None = None
+    fuzzy_distance: int = DEFAULT_FUZZY_DISTANCE
+
+
+@dataclass(frozen=True)
+class FieldSpec:
+    """One Table Schema field with its hints.  ``descriptor`` is the user's field, verbatim."""
+
+    name: str
+    type: str
+    title: str = ""
+    description: str = ""
+    format: str = "default"
+    constraints: dict[str, Any] = field(default_factory=dict)
+    missing_values: tuple[str, ...] | None = None
+    true_values: tuple[str, ...] = ("true", "True", "TRUE", "1")
+    false_values: tuple[str, ...] = ("false", "False", "FALSE", "0")
+    hints: FieldHints = field(default_factory=lambda: FieldHints(kind="text"))
+    descriptor: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def required(self) -> bool:
+        return bool(self.constraints.get("required"))
+
+    @property
+    def enum(self) -> tuple[Any, ...] | None:
+        values = self.constraints.get("enum")
+        return tuple(values) if values is not None else None
+
+    @property
+    def pattern(self) -> re.Pattern[str] | None:
+        """The whole-value ``constraints.pattern``, compiled."""
+        raw = self.constraints.get("pattern")
+        return re.compile(raw) if raw else None
+
+
+@dataclass(frozen=True)
+class TargetSchema:
+    """A loaded, validated schema.  ``descriptor`` is the user's file, verbatim."""
+
+    name: str
+    fields: tuple[FieldSpec, ...]
+    source: str = ""
+    title: str = ""
+    description: str = ""
+    date_order: str | None = None
+    review_below: float = DEFAULT_REVIEW_BELOW
+    missing_values: tuple[str, ...] = ("",)
+    primary_key: tuple[str, ...] = ()
+    descriptor: dict[str, Any] = field(default_factory=dict)
+
+    def field(self, name: str) -> FieldSpec:
+        for spec in self.fields:
+            if spec.name == name:
+                return spec
+        raise KeyError(name)
+
+    @property
+    def field_names(self) -> tuple[str, ...]:
+        return tuple(spec.name for spec in self.fields)

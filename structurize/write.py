@@ -1,0 +1,260 @@
+"""Write a run's outputs: table.csv, values.csv, documents.csv, datapackage.json, dictionary.
+
+CSV files follow RFC 4180 (comma, double quotes doubled, CRLF line ends) and are UTF-8 with
+a byte-order mark by default, so that Excel on Windows opens them as UTF-8 on double-click;
+pandas, the csv module (``encoding="utf-8-sig"``) and frictionless read the mark correctly.
+Every text cell that starts with a character a spreadsheet treats as a formula
+(``= + - @``, tab, CR, LF, NUL, per OWASP "CSV Injection" and ASVS 5.0 1.2.10) gets a
+leading apostrophe, and every field is quoted.  Numbers and dates that passed validation
+are written in canonical form and are not prefixed.  Each file is written to a temporary
+file in the same folder, synced, then renamed over the old one.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import os
+import tempfile
+from collections.abc import Iterable, Sequence
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from .api import ExtractionResult
+from .schema.model import FieldSpec, TargetSchema
+from .types import ValueStatus
+
+#: First characters that make a spreadsheet evaluate a cell (OWASP + ASVS 1.2.10).
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r", "\n", "\0")
+TABLE_FILE = "table.csv"
+VALUES_FILE = "values.csv"
+DOCUMENTS_FILE = "documents.csv"
+PACKAGE_FILE = "datapackage.json"
+DICTIONARY_FILE = "data_dictionary.md"
+DICTIONARY_CSV = "data_dictionary.csv"
+VALUES_COLUMNS = [
+    "document", "field", "value", "confidence", "status", "start", "end", "page", "snippet",
+    "extractor", "reason", "alternatives",
+]
+DOCUMENTS_COLUMNS = ["document", "status", "reason", "note", "reader", "encoding", "pages", "chars", "warnings", "seconds", "sha256"]
+TABLE_SCHEMA_PROFILE = "https://datapackage.org/profiles/2.0/tableschema.json"
+PACKAGE_PROFILE = "https://datapackage.org/profiles/2.0/datapackage.json"
+
+
+def guard(cell: Any) -> str:
+    """A cell as text, with a leading ``'`` if a spreadsheet would read it as a formula."""
+    if cell is None:
+        return ""
+    text = str(cell)
+    if text.startswith(FORMULA_STARTS):
+        return "'" + text
+    return text
+
+
+def unguard(text: str) -> str:
+    """Undo :func:`guard` when reading our own CSV back."""
+    if text.startswith("'") and text[1:].startswith(FORMULA_STARTS):
+        return text[1:]
+    return text
+
+
+def csv_bytes(header: Sequence[str], rows: Iterable[Sequence[Any]], *, bom: bool = True, guarded: Sequence[bool] | None = None) -> bytes:
+    """RFC 4180 CSV as bytes.  ``guarded[i]`` says whether column i gets the formula guard."""
+    buffer = io.StringIO(newline="")
+    writer = csv.writer(buffer, quoting=csv.QUOTE_ALL, lineterminator="\r\n")
+    writer.writerow([guard(name) for name in header])
+    for row in rows:
+        writer.writerow(
+            [guard(value) if (guarded is None or guarded[i]) else ("" if value is None else str(value)) for i, value in enumerate(row)]
+        )
+    data = buffer.getvalue().encode("utf-8")
+    return (b"\xef\xbb\xbf" + data) if bom else data
+
+
+def atomic_write(path: Path, data: bytes) -> None:
+    """Write ``data`` to ``path`` so that readers see the old file or the new one, never half."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(handle, "wb") as out:
+            out.write(data)
+            out.flush()
+            os.fsync(out.fileno())
+        os.replace(temporary, path)
+    except BaseException:
+        try:
+            os.unlink(temporary)
+        except OSError:
+            pass
+        raise
+    try:
+        directory = os.open(path.parent, os.O_RDONLY)
+    except OSError:
+        return
+    try:
+        os.fsync(directory)
+    except OSError:
+        pass
+    finally:
+        os.close(directory)
+
+
+def _text_columns(schema: TargetSchema) -> list[bool]:
+    """Which table.csv columns hold free text (guarded); typed numbers and dates do not."""
+    return [True] + [spec.type in ("string", "any") for spec in schema.fields]
+
+
+def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = True) -> dict[str, Path]:
+    """Write every output file of ``result`` into ``out_dir``; return their paths."""
+    out = Path(out_dir)
+    schema = result.schema
+    table = pd.DataFrame(result.rows(), columns=["document", *schema.field_names])
+    values = pd.DataFrame(result.values(), columns=VALUES_COLUMNS)
+    documents = pd.DataFrame(result.document_rows(), columns=DOCUMENTS_COLUMNS)
+    paths = {
+        "table": out / TABLE_FILE,
+        "values": out / VALUES_FILE,
+        "documents": out / DOCUMENTS_FILE,
+        "datapackage": out / PACKAGE_FILE,
+        "dictionary": out / DICTIONARY_FILE,
+        "dictionary_csv": out / DICTIONARY_CSV,
+    }
+    atomic_write(paths["table"], csv_bytes(table.columns, _records(table), bom=bom, guarded=_text_columns(schema)))
+    values_guard = [True, True, True, False, False, False, False, False, True, False, True, True]
+    atomic_write(paths["values"], csv_bytes(values.columns, _records(values), bom=bom, guarded=values_guard))
+    atomic_write(paths["documents"], csv_bytes(documents.columns, _records(documents), bom=bom))
+    dictionary = data_dictionary(result)
+    atomic_write(paths["dictionary_csv"], csv_bytes(dictionary.columns, _records(dictionary), bom=bom))
+    atomic_write(paths["dictionary"], dictionary_markdown(schema, dictionary).encode("utf-8"))
+    atomic_write(paths["datapackage"], (json.dumps(datapackage(result, bom=bom), indent=2, ensure_ascii=False) + "\n").encode("utf-8"))
+    return paths
+
+
+def _records(frame: pd.DataFrame) -> Iterable[list[Any]]:
+    for row in frame.itertuples(index=False, name=None):
+        yield [None if (isinstance(v, float) and pd.isna(v)) or v is pd.NA else _plain(v) for v in row]
+
+
+def _plain(value: Any) -> Any:
+    if isinstance(value, float) and value.is_integer() and abs(value) < 1e15:
+        return int(value)
+    return value
+
+
+# --- data package and dictionary -------------------------------------------------------------
+
+
+def _table_schema(schema: TargetSchema) -> dict[str, Any]:
+    """The user's schema (hints included) with the ``document`` key column in front."""
+    descriptor = json.loads(json.dumps(schema.descriptor, default=str))
+    fields = [
+        {
+            "name": "document",
+            "title": "Document",
+            "type": "string",
+            "description": "Path of the source document, relative to the input folder.",
+            "constraints": {"required": True, "unique": True},
+        }
+    ] + [_field_descriptor(spec) for spec in schema.fields]
+    descriptor["fields"] = fields
+    descriptor["$schema"] = TABLE_SCHEMA_PROFILE
+    descriptor.setdefault("missingValues", [""])
+    descriptor["primaryKey"] = ["document"]
+    for key in ("name", "title", "description"):
+        descriptor.pop(key, None)
+    return descriptor
+
+
+def _field_descriptor(spec: FieldSpec) -> dict[str, Any]:
+    descriptor = json.loads(json.dumps(spec.descriptor, default=str))
+    extract = descriptor.get("extract")
+    if isinstance(extract, dict) and isinstance(extract.get("aliases"), dict):
+        extract["aliases"] = {str(key).lower() if isinstance(key, bool) else str(key): value for key, value in extract["aliases"].items()}
+    return descriptor
+
+
+def datapackage(result: ExtractionResult, *, bom: bool = True) -> dict[str, Any]:
+    """A Frictionless Data Package v2 descriptor for table.csv."""
+    schema = result.schema
+    name = _slug(schema.name or "extraction")
+    return {
+        "$schema": PACKAGE_PROFILE,
+        "name": name,
+        "title": schema.title or schema.name,
+        "description": schema.description,
+        "resources": [
+            {
+                "name": "table",
+                "path": TABLE_FILE,
+                "type": "table",
+                "format": "csv",
+                "mediatype": "text/csv",
+                "encoding": "utf-8-sig" if bom else "utf-8",
+                "dialect": {"delimiter": ",", "lineTerminator": "\r\n", "quoteChar": '"', "doubleQuote": True, "header": True},
+                "schema": _table_schema(schema),
+            }
+        ],
+    }
+
+
+def _slug(text: str) -> str:
+    slug = "".join(ch if ch.isalnum() or ch in "-_." else "-" for ch in text.lower()).strip("-")
+    return slug or "extraction"
+
+
+def data_dictionary(result: ExtractionResult) -> pd.DataFrame:
+    """One row per field: title, type, definition, allowed values, fill rate, review share."""
+    values = pd.DataFrame(result.values(), columns=VALUES_COLUMNS)
+    readable = {doc.source for doc in result.documents if doc.status.readable}
+    rows = []
+    for spec in result.schema.fields:
+        mine = values[values["field"] == spec.name]
+        total = len(mine)
+        filled = int((mine["value"] != "").sum()) if total else 0
+        flagged = int(mine["status"].isin([str(ValueStatus.REVIEW), str(ValueStatus.INVALID)]).sum()) if total else 0
+        allowed = spec.enum or ()
+        constraints = {k: v for k, v in spec.constraints.items() if k != "enum"}
+        rows.append(
+            {
+                "field": spec.name,
+                "title": spec.title or spec.name,
+                "type": spec.type + (f" ({spec.format})" if spec.format not in ("default", "") else ""),
+                "definition": " ".join(spec.description.split()),
+                "allowed_values": "; ".join(str(v) for v in allowed),
+                "constraints": ", ".join(f"{k}={v}" for k, v in constraints.items()),
+                "extracted_as": spec.hints.kind,
+                "documents": total,
+                "filled": filled,
+                "fill_rate": round(filled / total, 3) if total else 0.0,
+                "flagged_for_review": flagged,
+                "read_documents": len(readable),
+            }
+        )
+    return pd.DataFrame(rows)
+
+
+def dictionary_markdown(schema: TargetSchema, dictionary: pd.DataFrame) -> str:
+    lines = [f"# Data dictionary: {schema.title or schema.name}", ""]
+    if schema.description:
+        lines += [" ".join(schema.description.split()), ""]
+    lines += [
+        "Values are machine-extracted from personal data. Review them before anyone decides",
+        "anything about a person; local privacy and employment law govern their use.",
+        "",
+    ]
+    for row in dictionary.to_dict("records"):
+        lines.append(f"## {row['field']} — {row['title']}")
+        lines.append("")
+        lines.append(f"- **Type:** {row['type']}")
+        lines.append(f"- **Definition:** {row['definition'] or '(none given)'}")
+        if row["allowed_values"]:
+            lines.append(f"- **Allowed values:** {row['allowed_values']}")
+        if row["constraints"]:
+            lines.append(f"- **Constraints:** {row['constraints']}")
+        lines.append(f"- **Fill rate:** {row['filled']} of {row['documents']} documents ({row['fill_rate']:.0%})")
+        lines.append(f"- **Flagged for review:** {row['flagged_for_review']}")
+        lines.append("")
+    return "\n".join(lines)
