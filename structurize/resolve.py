@@ -31,6 +31,7 @@ from .types import Alternative, Candidate, FieldValue, Span, ValueStatus
 
 REVISED_FACTOR = 1.12
 SUPERSEDED_FACTOR = 0.3
+IMPLICITLY_SUPERSEDED = 0.5
 #: Multipliers for flags on the winning candidate.
 FLAG_FACTORS = {
     "ambiguous_order": 0.97,
@@ -77,9 +78,16 @@ def _adjusted(candidate: Candidate) -> float:
 
 
 def _groups(candidates: Iterable[Candidate]) -> list[_Group]:
+    candidates = list(candidates)
+    revised = [c for c in candidates if "revised" in c.flags and c.value is not None]
+    last_revision = max((c.span.start for c in revised), default=-1)
     buckets: dict[Any, list[tuple[float, Candidate]]] = {}
     for candidate in candidates:
         score = _adjusted(candidate)
+        if revised and "revised" not in candidate.flags and candidate.span.start < last_revision and _key(candidate.value) not in {
+            _key(c.value) for c in revised
+        }:
+            score *= IMPLICITLY_SUPERSEDED  # a later correction replaces this value
         if score <= 0.01:
             continue
         buckets.setdefault(_key(candidate.value), []).append((score, candidate))

@@ -45,6 +45,7 @@ def register_builtin_extractors() -> None:
     register_extractor("dateline.v1", x.dateline_extractor, ("date",))
     register_extractor("role.v1", x.role_extractor, ("person",))
     register_extractor("scan.v1", x.scan_extractor, ("choice",))
+    register_extractor("transition.v1", x.transition_extractor, ("choice",))
     register_extractor("pattern.v1", x.pattern_extractor, ("identifier", "email", "phone"))
 
 

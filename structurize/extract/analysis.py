@@ -40,8 +40,8 @@ _ANCHOR_LABEL_WORDS = {
 }
 _REVISED_BEFORE = re.compile(
     r"(?:\b(?:now|changed to|moved to|revised to|updated to|increased to|decreased to|reduced to|"
-    r"rescheduled to|pushed (?:back )?to|brought forward to|amended to|corrected to|new(?: start| last| effective)? date(?: is)?|"
-    r"instead|agreed)\b[^.;\n]{0,25})$",
+    r"rescheduled to|pushed (?:back )?to|brought forward to|amended to|corrected to|new(?: start| last| effective)? date(?: is)?)"
+    r"\b[^.;\n]{0,25})$",
     re.IGNORECASE,
 )
 _SUPERSEDED_BEFORE = re.compile(
@@ -51,6 +51,7 @@ _SUPERSEDED_BEFORE = re.compile(
 )
 _REVISION_SECTION = re.compile(r"^\W*(?:update[ds]?|correction|corrected|revised|revision|amendment|amended|change)\b", re.IGNORECASE)
 _SENTENCE_BREAK = re.compile(r"(?<=[.!?])\s+(?=[A-Z\"“(])|\n\s*\n|\n(?=\s*[-*•]\s)")
+_CAPITALISED = re.compile(r"(?<![\w'’-])[A-Z][\w'’-]+\s+[A-Z]")
 _FIRST_PERSON = re.compile(r"^(?:i|me|myself|i am|i'm|i've|i will)$", re.IGNORECASE)
 
 
@@ -246,10 +247,26 @@ class Analysis:
     def ner_overlaps(self, start: int, end: int, label: str = "PERSON") -> bool:
         return any(e.label == label and e.start < end and start < e.end for e in self.entities)
 
+    def person_at(self, raw: str, offset: int) -> Person | None:
+        """The personal name ``raw`` starts with (``offset`` is where ``raw`` starts), if any."""
+        stripped = raw.lstrip()
+        found = leading_name(stripped, offset + len(raw) - len(stripped))
+        if found is None or self.is_listed_value(found[2]):
+            return None
+        return Person(found[0], found[1], found[2], "role")
+
+    def is_listed_value(self, phrase: str) -> bool:
+        """True when ``phrase`` is a value of one of the schema's choice fields (a site...)."""
+        return any(v.find(phrase, loose=False) for v in self.vocabularies.values() if v.kind == "choice")
+
     @cached_property
     def roles(self) -> Roles:
         text = self.text
-        lines = [line for line in self.doc.lines if not self.excluded(line.start)]
+        table_rows = {row[0].start for table in self.doc.tables for row in table.rows if row}
+        lines = [
+            line for line in self.doc.lines
+            if not self.excluded(line.start) and not any(line.start <= s <= line.end for s in table_rows)
+        ]
         addressee: list[Person] = []
         copied: list[Person] = []
         signer = principal = author = None
@@ -257,23 +274,22 @@ class Analysis:
             raw = text[line.start : line.end]
             dear = _DEAR.match(raw)
             if dear and not addressee:
-                found = leading_name(raw[dear.end() :].rstrip(",:;"), line.start + dear.end())
-                if found:
-                    addressee.append(Person(found[0], found[1], found[2], "role"))
+                person = self.person_at(raw[dear.end() :].rstrip(",:;"), line.start + dear.end())
+                if person:
+                    addressee.append(person)
             cc = _CC.match(raw)
             if cc:
                 for piece in re.finditer(r"[^;,]+", raw[cc.end() :]):
-                    found = leading_name(piece.group().strip(), line.start + cc.end() + piece.start() + (len(piece.group()) - len(piece.group().lstrip())))
-                    if found:
-                        copied.append(Person(found[0], found[1], found[2], "role"))
+                    person = self.person_at(piece.group(), line.start + cc.end() + piece.start())
+                    if person:
+                        copied.append(person)
             if _CLOSING.match(raw):
                 for follow in lines[index + 1 : index + 4]:
-                    candidate = text[follow.start : follow.end].strip()
-                    if not candidate:
+                    if not text[follow.start : follow.end].strip():
                         continue
-                    found = leading_name(candidate, follow.start + (len(text[follow.start : follow.end]) - len(text[follow.start : follow.end].lstrip())))
-                    if found:
-                        signer = Person(found[0], found[1], found[2], "role")
+                    person = self.person_at(text[follow.start : follow.end], follow.start)
+                    if person:
+                        signer = person
                         principal = self._principal(lines, lines.index(follow)) or principal
                         break
         if signer is None:
@@ -289,16 +305,15 @@ class Analysis:
         if author is None:
             for pair in self.pairs:
                 if pair.label == "from" and pair.source in ("line", "gap"):
-                    found = leading_name(text[pair.value_span.start : pair.value_span.end], pair.value_span.start)
-                    if found:
-                        author = Person(found[0], found[1], found[2], "role")
+                    author = self.person_at(text[pair.value_span.start : pair.value_span.end], pair.value_span.start)
+                    if author:
                         break
         if not addressee:
             for pair in self.pairs:
                 if pair.label == "to" and pair.source in ("line", "gap", "header"):
-                    found = leading_name(text[pair.value_span.start : pair.value_span.end], pair.value_span.start)
-                    if found:
-                        addressee.append(Person(found[0], found[1], found[2], "role"))
+                    person = self.person_at(text[pair.value_span.start : pair.value_span.end], pair.value_span.start)
+                    if person:
+                        addressee.append(person)
                         break
         return Roles(tuple(addressee), signer, principal, author, tuple(copied))
 
@@ -307,9 +322,9 @@ class Analysis:
             raw = self.text[follow.start : follow.end]
             match = _ON_BEHALF.search(raw)
             if match and ("behalf" in match.group().lower() or match.start() > 0 and raw[: match.start()].rstrip().endswith(",")):
-                found = leading_name(raw[match.end() :], follow.start + match.end())
-                if found:
-                    return Person(found[0], found[1], found[2], "role")
+                person = self.person_at(raw[match.end() :], follow.start + match.end())
+                if person:
+                    return person
         return None
 
     def _signature_guess(self, lines: list) -> Person | None:
@@ -317,10 +332,10 @@ class Analysis:
         tail = [line for line in lines if self.text[line.start : line.end].strip()][-4:]
         for line in reversed(tail):
             raw = self.text[line.start : line.end]
-            stripped = raw.strip()
-            found = leading_name(stripped, line.start + (len(raw) - len(raw.lstrip())))
-            if found and (found[1] - found[0]) >= len(stripped.split("|")[0].split(",")[0].strip()) - 1:
-                return Person(found[0], found[1], found[2], "role")
+            person = self.person_at(raw, line.start)
+            head = raw.strip().split("|")[0].split(",")[0].strip()
+            if person and (person.end - person.start) >= len(head) - 1:
+                return person
         return None
 
     @cached_property
@@ -334,6 +349,10 @@ class Analysis:
         for pair in self.pairs:
             found = leading_name(self.text[pair.value_span.start : pair.value_span.end])
             if found:
+                names.append(found[2])
+        for match in _CAPITALISED.finditer(self.text):
+            found = leading_name(self.text[match.start() : match.start() + 80])
+            if found and len(found[2].split()) >= 2:
                 names.append(found[2])
         return [name for name in dict.fromkeys(names) if len(name.split()) >= 2]
 
@@ -365,7 +384,7 @@ class Analysis:
         all_hits: list[tuple[str, CueHit]] = []
         for spec in self.schema.fields:
             for cue in spec.hints.cues:
-                for start, end in find_phrase(self.text, cue):
+                for start, end in find_phrase(self.text, cue, inflect=True):
                     all_hits.append((spec.name, CueHit(cue, start, end)))
         out: dict[str, list[CueHit]] = {spec.name: [] for spec in self.schema.fields}
         for name, hit in all_hits:

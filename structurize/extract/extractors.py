@@ -41,7 +41,9 @@ _FILLERS = {
     "directly", "on", "at", "with", "within", "been", "being", "are", "am", "that", "this", "now",
     "who", "which", "also", "formally", "officially", "fixed-term", "regular", "date", "day",
 }
-_AUTHOR_CUE = re.compile(r"^(?:i|we)\b|\bby$|^from$", re.IGNORECASE)
+_AUTHOR_CUE = re.compile(r"^(?:i|we)\b|^from$", re.IGNORECASE)
+#: Single-word cues too common in running text to anchor a value there (labels only).
+_LABEL_ONLY_CUES = {"to", "from", "by", "for", "at", "on", "in", "of", "with", "re", "cc", "id", "no", "date", "name", "current", "new"}
 _ADDRESSEE_CUE = {"dear", "to", "candidate", "addressee", "recipient", "attention", "attn"}
 
 
@@ -94,8 +96,9 @@ def _resolve_first_person(an: Analysis, spec: FieldSpec, reading: Reading) -> Re
     person = roles.author or roles.signer
     if person is None:
         return None
-    return Reading(person.name, person.start, person.end, 0.85 * reading.quality, reading.flags | {"first_person"},
-                   evidence=("first person → author/signer",))
+    name = an.complete_name(person.name) or person.name
+    return Reading(name, person.start, person.end, 0.85 * reading.quality, reading.flags | {"first_person"},
+                   evidence=("first person: the author or signer",))
 
 
 def _ordered(readings: list[Reading]) -> list[Reading]:
@@ -164,12 +167,18 @@ def _skip_fillers(text: str, position: int, limit: int) -> tuple[int, str | None
 def prose_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
     kind = spec.hints.kind
     for hit in an.cue_hits.get(spec.name, ()):
-        if _inside_label(an, hit.start, hit.end):
+        if norm(hit.cue) in _LABEL_ONLY_CUES or _inside_label(an, hit.start, hit.end):
             continue
         sentence_start, sentence_end = an.sentence(hit.start)
         limit = min(len(an.text), hit.end + PROSE_REACH, max(sentence_end, hit.end + 1))
         weight = PROSE_WEIGHT * (1.0 if len(hit.cue.split()) > 1 else 0.85)
         evidence = (f"cue {hit.cue!r} in running text",)
+        if kind == "person" and _AUTHOR_CUE.search(hit.cue) and not an.excluded(hit.start):
+            # "I approve the transfer": the person is whoever wrote the document
+            resolved = _resolve_first_person(an, spec, Reading(None, hit.start, hit.end, 1.0))
+            if resolved is not None:
+                yield _candidate(spec, resolved, "prose.v1", weight, evidence + ("first-person cue",), an)
+            continue
         found = False
         for reading, distance in _prose_readings(an, spec, hit.start, hit.end, limit):
             decay = max(0.45, 1.0 - distance / 160)
@@ -198,8 +207,8 @@ def _prose_readings(an: Analysis, spec: FieldSpec, start: int, end: int, limit: 
             yield Reading(None, position, position + len(first_person), 0.9, frozenset({"first_person"})), position - end
             return
         found = leading_name(text[position:limit], position)
-        if found is not None and position - end <= 40:
-            reading = kinds._person_reading(an, found)
+        reading = kinds._person_reading(an, found) if found is not None and position - end <= 40 else None
+        if reading is not None:
             yield reading, position - end
             return
         for person in an.ner_people:
@@ -359,6 +368,36 @@ def scan_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             evidence = ("mentioned in the text, no cue",)
         reading = Reading(mention.value, mention.start, mention.end, 1.0, frozenset({"ticked"}) if mention.ticked else frozenset())
         yield _candidate(spec, reading, "scan.v1", score, evidence + (f"variant {mention.variant!r}",), an)
+
+
+# --- transition.v1 ----------------------------------------------------------------------------
+
+_CONNECTOR = re.compile(r"^[^.;\n]{0,60}?(?:\bto\b|→|->|=>|⇒|➔)[^.;\n]{0,30}?$", re.IGNORECASE)
+
+
+def transition_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    """"from Elm Ridge ... to Tamsin Flats", "CJ → NQ": the two sides of a move.
+
+    Serves a choice field whose cues include ``from`` (it gets the first side) or ``to``
+    (it gets the second side).
+    """
+    cues = {norm(cue) for cue in spec.hints.cues}
+    side = 0 if "from" in cues else 1 if "to" in cues else None
+    vocabulary = an.vocabularies.get(spec.name)
+    if side is None or vocabulary is None:
+        return
+    mentions = [m for m in vocabulary.find(an.text, loose=False) if not m.negated and not an.excluded(m.start)]
+    for first, second in zip(mentions, mentions[1:]):
+        if first.value == second.value:
+            continue
+        between = an.text[first.end : second.start]
+        arrow = bool(re.search(r"→|->|=>|⇒|➔", between))
+        before = an.text[max(0, first.start - 50) : first.start]
+        if not _CONNECTOR.match(between) or not (arrow or re.search(r"\bfrom\b[^.;\n]*$", before, re.IGNORECASE)):
+            continue
+        chosen = (first, second)[side]
+        reading = Reading(chosen.value, chosen.start, chosen.end, 1.0)
+        yield _candidate(spec, reading, "transition.v1", 0.72 if arrow else 0.66, ("a move written as from ... to ...",), an)
 
 
 # --- pattern.v1 ------------------------------------------------------------------------------------

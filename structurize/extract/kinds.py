@@ -18,7 +18,7 @@ from ..schema.model import FieldSpec
 from ..types import Alternative
 from .analysis import Analysis
 from .money import period_in
-from .text import fold, leading_name, normalise_name
+from .text import TITLE_HEADS, fold, leading_name, normalise_name
 
 _STATED_MISSING = re.compile(
     r"^\W*(?:n/?a\b|none\b|nil\b|tbd\b|tbc\b|t\.b\.[cd]\.|pending\b|unknown\b|undecided\b|awaiting\b|"
@@ -32,20 +32,6 @@ _PHONE = re.compile(r"(?<![\w+])(?:\+\d{1,3}[\s.-]?)?(?:\(\d{2,4}\)[\s.-]?)?\d{3
 _NUMBER = re.compile(r"(?<![\w.])[-+]?\d{1,3}(?:,\d{3})+(?:\.\d+)?(?![\w])|(?<![\w.])[-+]?\d+(?:\.\d+)?(?![\w])")
 _COMPOUND = re.compile(r"[A-Za-z0-9]+(?:[-./][A-Za-z0-9]+)*")
 _ID_SEPARATORS = re.compile(r"[-./ ]")
-#: Head words of job titles (the last noun of "Senior Inventory Analyst").  Common practice, no source.
-TITLE_HEADS = frozenset(
-    """accountant adviser advisor agent analyst apprentice architect assistant associate attendant auditor
-    buyer captain cashier chef clerk coach consultant controller cook coordinator counsel courier designer
-    developer director dispatcher driver economist editor electrician engineer estimator executive fitter
-    foreman generalist handler head hygienist inspector instructor intern janitor lead leader librarian
-    loader machinist manager marshal mechanic merchandiser nurse officer operative operator packer painter
-    paralegal partner pharmacist picker planner plumber porter president principal programmer receptionist
-    recruiter representative researcher scheduler scientist secretary shunter specialist steward supervisor
-    surveyor teacher technician technologist tester therapist trainee trainer treasurer underwriter
-    veterinarian welder worker writer administrator archivist curator groomer assistant storekeeper
-    superintendent expeditor custodian caretaker guard ranger counselor counsellor dentist physician
-    surgeon paramedic pilot sailor deckhand navigator controller""".split()
-)
 _TITLE_WORD = re.compile(r"[A-Z][\w'’&.-]*|[IVX]{1,4}\b|&|of|and|for|to|the|(?:\([^)]{1,30}\))")
 _TITLE_LINKS = {"of", "and", "for", "&", "to", "the"}
 
@@ -93,8 +79,9 @@ def read_person(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Rea
         out.append(Reading(None, start, start + lead + 1, 0.8, frozenset({"first_person"})))
         return out
     found = leading_name(segment[lead:], start + lead)
-    if found is not None:
-        out.append(_person_reading(an, found))
+    reading = _person_reading(an, found) if found is not None else None
+    if reading is not None:
+        out.append(reading)
     for person in an.ner_people:
         if start <= person.start < end and (found is None or person.start >= found[1]):
             full = an.complete_name(person.name) or person.name
@@ -106,8 +93,15 @@ def read_person(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Rea
     return out
 
 
-def _person_reading(an: Analysis, found: tuple[int, int, str]) -> Reading:
+def not_a_person(an: Analysis, name: str) -> bool:
+    """A name-shaped phrase that is one of the schema's listed values (a site, a department)."""
+    return any(vocabulary.find(name, loose=False) for vocabulary in an.vocabularies.values() if vocabulary.kind == "choice")
+
+
+def _person_reading(an: Analysis, found: tuple[int, int, str]) -> Reading | None:
     start, end, name = found
+    if not_a_person(an, name):
+        return None
     flags: set[str] = set()
     evidence = []
     quality = 0.9
@@ -122,6 +116,9 @@ def _person_reading(an: Analysis, found: tuple[int, int, str]) -> Reading:
     if an.ner_overlaps(start, end):
         quality = min(1.0, quality + 0.08)
         evidence.append("ner PERSON agrees")
+    elif any(e.label in ("GPE", "LOC", "FAC") and e.start <= start and end <= e.end for e in an.entities):
+        quality *= 0.8
+        evidence.append("ner calls it a place")
     return Reading(name, start, end, quality, frozenset(flags), evidence=tuple(evidence))
 
 
@@ -191,12 +188,16 @@ def read_vocab(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Read
     mentions = vocabulary.find(an.text, start, end)
     out = []
     kind = spec.hints.kind
+    person = an.person_at(an.text[start:end], start) if kind == "choice" else None
+    about_person = person is not None and len(person.name.split()) >= 2
     for mention in mentions:
         if mention.ticked is False:
             continue
         value: Any = mention.value
         flags = set()
         quality = 1.0 if not mention.loose else 0.75
+        if about_person:
+            quality *= 0.3  # "Gustavo Lima, HR Generalist (Tamsin Flats)": the site of a person
         if mention.ticked:
             flags.add("ticked")
         if mention.negated:

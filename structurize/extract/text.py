@@ -48,7 +48,18 @@ def cue_match(cue: str, label: str) -> float:
     if _contains_words(label_words, cue_words):
         coverage = len(cue_words) / len(label_words)
         score = 0.55 + 0.35 * coverage
-    limit = 1 if len(label) <= 8 else 2
+    elif len(label_words) < len(cue_words) and cue_words[: len(label_words)] == label_words:
+        # a shortened label: "Current:" for the cue "current site"
+        score = 0.5 + 0.25 * len(label_words) / len(cue_words)
+    elif (
+        len(label_words) >= 2 <= len(cue_words)
+        and label_words[0] == cue_words[0]
+        and label_words[-1] not in _PREPOSITIONS
+        and label_words[0] not in _PREPOSITIONS
+    ):
+        # the same distinguishing first word: "Proposed assignment" for "proposed site"
+        score = 0.62
+    limit = 1 if len(label) <= 10 else 2
     if abs(len(cue) - len(label)) <= limit and len(label) >= 4:
         distance = Levenshtein.distance(cue, label, score_cutoff=limit)
         if distance <= limit:
@@ -56,26 +67,42 @@ def cue_match(cue: str, label: str) -> float:
     return score
 
 
+_PREPOSITIONS = frozenset("a an the of to by on at for from in with as and or is".split())
+
+
 def _contains_words(haystack: list[str], needle: list[str]) -> bool:
     size = len(needle)
     return any(haystack[i : i + size] == needle for i in range(len(haystack) - size + 1))
 
 
-def find_phrase(text: str, phrase: str) -> Iterator[tuple[int, int]]:
+def find_phrase(text: str, phrase: str, *, inflect: bool = False) -> Iterator[tuple[int, int]]:
     """Word-bounded, case-insensitive occurrences of ``phrase`` in ``text``.
 
     Spaces in the phrase match any run of whitespace; a phrase that is all capitals and at
     most four letters (an abbreviation such as ``NQ`` or ``HR``) matches case-sensitively.
+    With ``inflect``, words also match their inflected forms ("start on" finds "starting
+    on") and an adverb may sit between two words ("reporting directly to").
     """
-    pattern = _phrase_regex(phrase)
+    pattern = _phrase_regex(phrase, inflect)
     for match in pattern.finditer(text):
         yield match.start(), match.end()
 
 
+def _inflected(word: str) -> str:
+    if not word.isalpha() or len(word) < 3:
+        return re.escape(word)
+    if word.endswith("e"):
+        return re.escape(word[:-1]) + r"(?:e|es|ed|ing)"
+    return re.escape(word) + r"(?:s|es|ed|ing|\w(?:ed|ing))?"
+
+
 @lru_cache(maxsize=8192)
-def _phrase_regex(phrase: str) -> re.Pattern[str]:
-    parts = [re.escape(part) for part in phrase.split()]
-    body = r"\s+".join(parts)
+def _phrase_regex(phrase: str, inflect: bool = False) -> re.Pattern[str]:
+    if inflect:
+        parts = [_inflected(part) for part in phrase.split()]
+        body = r"(?:\s+\w+ly)?\s+".join(parts)
+    else:
+        body = r"\s+".join(re.escape(part) for part in phrase.split())
     left = r"(?<![\w])" if phrase[:1].isalnum() else ""
     right = r"(?![\w])" if phrase[-1:].isalnum() else ""
     letters = re.sub(r"[^A-Za-z]", "", phrase)
@@ -163,11 +190,37 @@ def leading_name(text: str, offset: int = 0, max_tokens: int = 4) -> tuple[int, 
             break
     while tokens and (tokens[-1][2].lower() in _PARTICLES or _INITIAL.match(tokens[-1][2])):
         tokens.pop()
-    if not tokens:
+    if not tokens or _all_title_words([t[2] for t in tokens]):
         return None
     start, end = tokens[0][0], tokens[-1][1]
     raw = text[start:end].rstrip(".,")
     return offset + start, offset + start + len(raw), normalise_name(raw)
+
+
+#: Words that make up job titles; a "name" made only of them ("Driver Trainer") is a title.
+TITLE_HEADS = frozenset(
+    """accountant adviser advisor agent analyst apprentice architect assistant associate attendant auditor
+    buyer captain cashier chef clerk coach consultant controller cook coordinator counsel courier designer
+    developer director dispatcher driver economist editor electrician engineer estimator executive fitter
+    foreman generalist handler head hygienist inspector instructor intern janitor lead leader librarian
+    loader machinist manager marshal mechanic merchandiser nurse officer operative operator packer painter
+    paralegal partner pharmacist picker planner plumber porter president principal programmer receptionist
+    recruiter representative researcher scheduler scientist secretary shunter specialist steward supervisor
+    surveyor teacher technician technologist tester therapist trainee trainer treasurer underwriter
+    veterinarian welder worker writer administrator archivist curator groomer storekeeper
+    superintendent expeditor custodian caretaker guard ranger counselor counsellor dentist physician
+    surgeon paramedic pilot sailor deckhand navigator""".split()
+)
+_TITLE_MODIFIERS = frozenset(
+    """senior junior chief deputy regional area site shift night day yard store field sales service
+    customer quality safety transport fleet warehouse maintenance inventory operations general
+    principal staff trainee acting interim relief lead""".split()
+)
+
+
+def _all_title_words(tokens: list[str]) -> bool:
+    words = [t.lower().strip(".") for t in tokens]
+    return words[-1] in TITLE_HEADS and all(w in TITLE_HEADS or w in _TITLE_MODIFIERS for w in words)
 
 
 def normalise_name(raw: str) -> str:

@@ -64,6 +64,7 @@ class Vocabulary:
                 unique.append((variant, value))
         self.pairs = tuple(unique)
         self.fuzzy_distance = hints.fuzzy_distance
+        self.kind = hints.kind
 
     @cached_property
     def values(self) -> tuple[str, ...]:
