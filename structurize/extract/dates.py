@@ -47,7 +47,7 @@ _PATTERNS: tuple[tuple[str, re.Pattern[str]], ...] = (
         "numeric",
         re.compile(
             r"(?<![\w/.-])" + _WEEKDAY.replace("(?:the\\s+)?", "")
-            + r"(?P<a>[0-3]?\d)(?P<sep>[/.-])(?P<b>[0-3]?\d)(?P=sep)(?P<y>(?:19|20)?\d\d)(?![\d/.-]|\.\d)",
+            + r"(?P<a>[0-3]?\d)(?P<sep>[/.-])(?P<b>[0-3]?\d)(?P=sep)(?P<y>(?:19|20)?\d\d)(?![\d/-]|\.\d)",
             re.IGNORECASE,
         ),
     ),

@@ -42,6 +42,8 @@ _FILLERS = {
     "who", "which", "also", "formally", "officially", "fixed-term", "regular", "date", "day",
 }
 _AUTHOR_CUE = re.compile(r"^(?:i|we)\b|^from$", re.IGNORECASE)
+#: "interviewed by", "approved by": the agent may be whoever wrote the document.
+_AGENT_CUE = re.compile(r"\w+(?:ed|en)\s+by$", re.IGNORECASE)
 #: Single-word cues too common in running text to anchor a value there (labels only).
 _LABEL_ONLY_CUES = {"to", "from", "by", "for", "at", "on", "in", "of", "with", "re", "cc", "id", "no", "date", "name", "current", "new"}
 _ADDRESSEE_CUE = {"dear", "to", "candidate", "addressee", "recipient", "attention", "attn"}
@@ -317,7 +319,8 @@ def role_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
     if any(cue in _ADDRESSEE_CUE for cue in cues):
         for person in roles.addressee[:1]:
             people.append((person, 0.5, "addressee"))
-    if any(_AUTHOR_CUE.search(cue) for cue in cues):
+    addressee_cues = any(cue in _ADDRESSEE_CUE for cue in cues)
+    if any(_AUTHOR_CUE.search(cue) for cue in cues) or (not addressee_cues and any(_AGENT_CUE.search(cue) for cue in cues)):
         author = roles.author or roles.signer
         if author is not None:
             people.append((author, 0.32, "author/signer"))

@@ -32,7 +32,7 @@ _PHONE = re.compile(r"(?<![\w+])(?:\+\d{1,3}[\s.-]?)?(?:\(\d{2,4}\)[\s.-]?)?\d{3
 _NUMBER = re.compile(r"(?<![\w.])[-+]?\d{1,3}(?:,\d{3})+(?:\.\d+)?(?![\w])|(?<![\w.])[-+]?\d+(?:\.\d+)?(?![\w])")
 _COMPOUND = re.compile(r"[A-Za-z0-9]+(?:[-./][A-Za-z0-9]+)*")
 _ID_SEPARATORS = re.compile(r"[-./ ]")
-_TITLE_WORD = re.compile(r"[A-Z][\w'’&.-]*|[IVX]{1,4}\b|&|of|and|for|to|the|(?:\([^)]{1,30}\))")
+_TITLE_WORD = re.compile(r"[A-Z][\w'’&-]*(?:\.(?=\w))?|[IVX]{1,4}\b|&|of|and|for|to|the|(?:\([^)]{1,30}\))")
 _TITLE_LINKS = {"of", "and", "for", "&", "to", "the"}
 
 
@@ -340,7 +340,7 @@ def _trim_title(value: str) -> str:
 
 
 def _has_head(value: str) -> bool:
-    words = [w.strip("()").lower() for w in re.split(r"[\s–—-]+", value)]
+    words = [w.strip("().,;:").lower() for w in re.split(r"[\s–—-]+", value)]
     return any(w.rstrip("s") in TITLE_HEADS or w in TITLE_HEADS for w in words)
 
 

@@ -88,7 +88,12 @@ def find_phrase(text: str, phrase: str, *, inflect: bool = False) -> Iterator[tu
         yield match.start(), match.end()
 
 
+_PRONOUNS = frozenset("us you me him her them".split())
+
+
 def _inflected(word: str) -> str:
+    if word.lower() in _PRONOUNS:
+        return r"\S+(?:\s+\S+){0,4}?"  # "join us as" also finds "join Acme Co. as"
     if not word.isalpha() or len(word) < 3:
         return re.escape(word)
     if word.endswith("e"):
@@ -144,7 +149,7 @@ _NOT_NAME = {
 _TITLES = re.compile(r"^(mr|mrs|ms|miss|mx|dr|prof)\.?$", re.IGNORECASE)
 _INITIAL = re.compile(r"^[A-Z]\.$")
 _ROMAN = re.compile(r"^(II|III|IV|Jr\.?|Sr\.?)$")
-_TOKEN = re.compile(r"[^\s,;:()|/<>\[\]\"]+")
+_TOKEN = re.compile(r"[^\s,;:()|/<>\[\]\"*_`]+")
 
 
 def _name_token(token: str) -> bool:

@@ -43,6 +43,21 @@ class VocabMention:
     loose: bool = False  #: words of a multi-word variant found with small gaps
 
 
+_WORDS = re.compile(r"[^\W_]+(?:['’][^\W_]+)?")
+_SUFFIXES = ("ments", "ment", "ions", "ion", "ings", "ing", "ies", "ied", "ed", "es", "s", "e")
+
+
+def stem(word: str) -> str:
+    """A crude English stem for matching variants: two passes of suffix stripping."""
+    word = word.lower().replace("’", "'")
+    for _ in range(2):
+        for suffix in _SUFFIXES:
+            if word.endswith(suffix) and len(word) - len(suffix) >= 3:
+                word = word[: -len(suffix)]
+                break
+    return word
+
+
 class Vocabulary:
     """The variants of one field, ready to search."""
 
@@ -83,19 +98,40 @@ class Vocabulary:
                 taken.append((s, e))
                 found.append(self._mention(text, start + s, start + e, value, variant, False))
         if loose:
-            for variant, value in self.pairs:
-                words = variant.split()
-                if len(words) < 2:
-                    continue
-                pattern = r"(?<!\w)" + r"(?:\W+\w+){0,3}?\W+".join(re.escape(w) for w in words) + r"(?!\w)"
-                for match in re.finditer(pattern, window, re.IGNORECASE):
-                    s, e = match.span()
-                    if e - s > len(variant) + 40 or any(s < te and ts < e for ts, te in taken):
-                        continue
-                    taken.append((s, e))
-                    found.append(self._mention(text, start + s, start + e, value, variant, True))
+            found.extend(self._loose(text, start, window, taken))
         found.sort(key=lambda m: m.start)
         return found
+
+    def _loose(self, text: str, start: int, window: str, taken: list[tuple[int, int]]) -> list[VocabMention]:
+        """Variants matched on word stems, with up to three other words in between
+        ("caring for" finds "to care for"; "relationship with supervisor" finds
+        "relationship with the night supervisor")."""
+        tokens = [(m.start(), m.end(), stem(m.group())) for m in _WORDS.finditer(window)]
+        out = []
+        for variant, value in self.pairs:
+            stems = [stem(word) for word in _WORDS.findall(variant)]
+            if not stems or (len(stems) == 1 and len(stems[0]) < 4):
+                continue
+            for index, (s, _, first) in enumerate(tokens):
+                if first != stems[0]:
+                    continue
+                position, gaps, end = index, 0, tokens[index][1]
+                for wanted in stems[1:]:
+                    position += 1
+                    while position < len(tokens) and tokens[position][2] != wanted and gaps < 3:
+                        if re.search(r"[.;!?\n]", window[tokens[position - 1][1] : tokens[position][0]]):
+                            break
+                        position += 1
+                        gaps += 1
+                    if position >= len(tokens) or tokens[position][2] != wanted:
+                        break
+                    end = tokens[position][1]
+                else:
+                    if any(s < te and ts < end for ts, te in taken):
+                        continue
+                    taken.append((s, end))
+                    out.append(self._mention(text, start + s, start + end, value, variant, True))
+        return out
 
     def _mention(self, text: str, s: int, e: int, value: str, variant: str, loose: bool) -> VocabMention:
         before = text[max(0, s - 60) : s]
