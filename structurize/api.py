@@ -23,7 +23,7 @@ from .readers import read_document
 from .resolve import companions, period_candidate, resolve_field
 from .schema import TargetSchema, load_schema
 from .types import Candidate, Document, DocumentResult, DocStatus, FieldValue, ValueStatus
-from .validate import check_unique, to_text, validate_value
+from .validate import check_unique, flag_unusual_gaps, to_text, validate_value
 
 __all__ = ["ExtractionResult", "discover", "extract_document", "extract_folder", "load_schema"]
 
@@ -235,7 +235,7 @@ def extract_folder(
         results.append(extract_document(path, schema, source=source, options=options, ner=ner))
         if progress is not None:
             progress(source)
-    results = check_unique(schema, results)
+    results = flag_unusual_gaps(schema, check_unique(schema, results))
     return ExtractionResult(
         schema=schema,
         documents=tuple(results),

@@ -115,7 +115,11 @@ def resolve_field(spec: FieldSpec, candidates: list[Candidate], *, review_below:
         confidence = ABSENT_WITH_CUES_CONFIDENCE if cues_seen else ABSENT_CONFIDENCE
         return FieldValue(spec.name, None, confidence, ValueStatus.MISSING, reason="not found in the document")
     best = groups[0]
-    rival = groups[1].support if len(groups) > 1 else 0.0
+    rivals = groups[1:]
+    if any("fallback" not in c.flags for c in best.members):
+        # weak, cue-less evidence for other values does not count against cued evidence
+        rivals = [g for g in rivals if any("fallback" not in c.flags for c in g.members)]
+    rival = rivals[0].support if rivals else 0.0
     confidence = best.support * (1.0 - 0.5 * (rival / best.support) ** 2) if best.support else 0.0
     chosen = best.best
     for flag in chosen.flags:

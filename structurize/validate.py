@@ -170,6 +170,40 @@ def check_unique(schema: TargetSchema, results: list[DocumentResult]) -> list[Do
     return out
 
 
+#: A field filled in at least this share of a batch is "usually present" ...
+USUALLY_PRESENT = 0.75
+#: ... judged only on batches of at least this many readable documents.
+USUALLY_PRESENT_MIN_DOCUMENTS = 5
+
+
+def flag_unusual_gaps(schema: TargetSchema, results: list[DocumentResult]) -> list[DocumentResult]:
+    """Send to review a value that was not found when most documents of the batch have it.
+
+    A value the document itself says is unknown ("TBD", "pending") keeps its status.
+    """
+    readable = [r for r in results if r.status.readable]
+    if len(readable) < USUALLY_PRESENT_MIN_DOCUMENTS:
+        return results
+    usual = {}
+    for spec in schema.fields:
+        filled = sum(1 for r in readable if (v := r.value(spec.name)) is not None and v.value is not None)
+        if filled / len(readable) >= USUALLY_PRESENT:
+            usual[spec.name] = f"usually present (found in {filled} of {len(readable)} documents)"
+    out = []
+    for result in results:
+        if not result.status.readable:
+            out.append(result)
+            continue
+        values = tuple(
+            replace(item, status=ValueStatus.REVIEW, confidence=min(item.confidence, 0.5), reason=usual[item.field])
+            if item.field in usual and item.value is None and not item.extractor and item.status is ValueStatus.MISSING
+            else item
+            for item in result.values
+        )
+        out.append(replace(result, values=values))
+    return out
+
+
 def format_number(value: Decimal | int) -> str:
     if isinstance(value, int):
         return str(value)

@@ -334,7 +334,7 @@ class Analysis:
             raw = self.text[line.start : line.end]
             person = self.person_at(raw, line.start)
             head = raw.strip().split("|")[0].split(",")[0].strip()
-            if person and (person.end - person.start) >= len(head) - 1:
+            if person and len(person.name.split()) >= 2 and (person.end - person.start) >= len(head) - 1:
                 return person
         return None
 

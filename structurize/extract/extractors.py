@@ -26,12 +26,13 @@ from ..types import Alternative, Candidate, Span
 from . import kinds
 from .analysis import Analysis, Person
 from .kinds import Reading
+from .vocab import Vocabulary
 from .text import cue_match, leading_name, norm
 
 #: Below this cue/label match a label is not taken as naming the field.
 MIN_LABEL_MATCH = 0.6
 LABEL_WEIGHT = 0.92
-PROSE_WEIGHT = 0.74
+PROSE_WEIGHT = 0.88
 PROSE_REACH = 110  #: characters after a cue in which a value may start
 EXCLUDED_FACTOR = 0.2
 
@@ -44,13 +45,18 @@ _FILLERS = {
 _AUTHOR_CUE = re.compile(r"^(?:i|we)\b|^from$", re.IGNORECASE)
 #: "interviewed by", "approved by": the agent may be whoever wrote the document.
 _AGENT_CUE = re.compile(r"\w+(?:ed|en)\s+by$", re.IGNORECASE)
+_FIRST_PERSON_CLAUSE = re.compile(r"(?:^|[\s(])I(?:'d|'m| would| am| wish| want| hereby)?\s+(?:\w+\s+){0,4}$")
 #: Single-word cues too common in running text to anchor a value there (labels only).
 _LABEL_ONLY_CUES = {"to", "from", "by", "for", "at", "on", "in", "of", "with", "re", "cc", "id", "no", "date", "name", "current", "new"}
 _ADDRESSEE_CUE = {"dear", "to", "candidate", "addressee", "recipient", "attention", "attn"}
 
 
-def _candidate(spec: FieldSpec, reading: Reading, extractor: str, score: float, evidence: tuple[str, ...], an: Analysis) -> Candidate:
+def _candidate(
+    spec: FieldSpec, reading: Reading, extractor: str, score: float, evidence: tuple[str, ...], an: Analysis, *, fallback: bool = False
+) -> Candidate:
     flags = set(reading.flags)
+    if fallback:
+        flags.add("fallback")
     region = an.excluded(reading.start)
     if region:
         flags.add(region)
@@ -127,6 +133,8 @@ def label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
         if match < MIN_LABEL_MATCH:
             continue
         margin = _owner_margin(an, spec, label, match)
+        if margin > 0.2 and match + margin >= 0.95:
+            continue  # another field's cue names this label exactly
         ownership = 1.0 if margin <= 0.02 else max(0.3, 1.0 - 2 * margin)
         readings = kinds.read(an, spec, pair.value_span.start, pair.value_span.end)
         readings = [r for r in readings if r.quality > 0]
@@ -183,7 +191,7 @@ def prose_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             continue
         found = False
         for reading, distance in _prose_readings(an, spec, hit.start, hit.end, limit):
-            decay = max(0.45, 1.0 - distance / 160)
+            decay = max(0.45, 1.0 - distance / 200)
             if "first_person" in reading.flags and reading.value is None:
                 resolved = _resolve_first_person(an, spec, reading)
                 if resolved is None:
@@ -192,12 +200,23 @@ def prose_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             yield _candidate(spec, reading, "prose.v1", weight * decay * reading.quality, evidence, an)
             found = True
             break
-        if not found and kind in ("date", "person", "flag", "choice"):
-            before_start = max(sentence_start, hit.start - 45)
-            readings = [r for r in kinds.read(an, spec, before_start, hit.start) if r.quality > 0 and r.value is not None]
-            if readings:
-                reading = readings[-1]
-                yield _candidate(spec, reading, "prose.v1", weight * 0.7 * reading.quality, evidence + ("value before the cue",), an)
+        if found or kind not in ("date", "person", "flag", "choice"):
+            continue
+        before_start = max(sentence_start, hit.start - 45)
+        clause = an.text[before_start : hit.start]
+        if kind == "person" and _FIRST_PERSON_CLAUSE.search(clause) and not an.excluded(hit.start):
+            # "I would like to request a transfer": the writer is the person
+            resolved = _resolve_first_person(an, spec, Reading(None, hit.start, hit.end, 1.0))
+            if resolved is not None:
+                yield _candidate(spec, resolved, "prose.v1", weight * 0.8, evidence + ("first-person clause",), an)
+            continue
+        readings = [
+            r for r in kinds.read(an, spec, before_start, hit.start)
+            if r.quality > 0 and r.value is not None and not (kind == "person" and "partial_name" in r.flags)
+        ]
+        if readings:
+            reading = readings[-1]
+            yield _candidate(spec, reading, "prose.v1", weight * 0.7 * reading.quality, evidence + ("value before the cue",), an)
 
 
 def _prose_readings(an: Analysis, spec: FieldSpec, start: int, end: int, limit: int) -> Iterator[tuple[Reading, int]]:
@@ -210,7 +229,7 @@ def _prose_readings(an: Analysis, spec: FieldSpec, start: int, end: int, limit: 
             return
         found = leading_name(text[position:limit], position)
         reading = kinds._person_reading(an, found) if found is not None and position - end <= 40 else None
-        if reading is not None:
+        if reading is not None and ("partial_name" not in reading.flags or an.ner_overlaps(reading.start, reading.end)):
             yield reading, position - end
             return
         for person in an.ner_people:
@@ -306,7 +325,7 @@ def dateline_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
     if line is None or line.value is None:
         return
     reading = Reading(line.value, line.start, line.end, 1.0, line.flags)
-    yield _candidate(spec, reading, "dateline.v1", 0.82, ("a line holding only a date near the top (the letter's date)",), an)
+    yield _candidate(spec, reading, "dateline.v1", 0.88, ("a line holding only a date near the top (the letter's date)",), an)
 
 
 # --- role.v1 ------------------------------------------------------------------------------------
@@ -318,7 +337,7 @@ def role_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
     people: list[tuple[Person, float, str]] = []
     if any(cue in _ADDRESSEE_CUE for cue in cues):
         for person in roles.addressee[:1]:
-            people.append((person, 0.5, "addressee"))
+            people.append((person, 0.85, "addressee"))
     addressee_cues = any(cue in _ADDRESSEE_CUE for cue in cues)
     if any(_AUTHOR_CUE.search(cue) for cue in cues) or (not addressee_cues and any(_AGENT_CUE.search(cue) for cue in cues)):
         author = roles.author or roles.signer
@@ -327,8 +346,10 @@ def role_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
     for person, score, role in people:
         name = an.complete_name(person.name) or person.name
         flags = frozenset() if len(name.split()) > 1 else frozenset({"partial_name"})
+        if flags:
+            score = min(score, 0.5)
         reading = Reading(name, person.start, person.end, 1.0, flags)
-        yield _candidate(spec, reading, "role.v1", score, (f"the document's {role}",), an)
+        yield _candidate(spec, reading, "role.v1", score, (f"the document's {role}",), an, fallback=role != "addressee")
 
 
 def person_role_penalty(an: Analysis, spec: FieldSpec, candidate: Candidate) -> Candidate:
@@ -370,7 +391,31 @@ def scan_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             score = 0.28 if not mention.loose else 0.2
             evidence = ("mentioned in the text, no cue",)
         reading = Reading(mention.value, mention.start, mention.end, 1.0, frozenset({"ticked"}) if mention.ticked else frozenset())
-        yield _candidate(spec, reading, "scan.v1", score, evidence + (f"variant {mention.variant!r}",), an)
+        yield _candidate(spec, reading, "scan.v1", score, evidence + (f"variant {mention.variant!r}",), an, fallback=not mention.ticked)
+    if not siblings:
+        yield from _near_misses(an, spec, vocabulary)
+
+
+_CAPITAL_RUN = re.compile(r"(?<![\w.])[A-Z][\w.'’-]*(?:[ \t]+[A-Z][\w.'’-]*){1,3}")
+
+
+def _near_misses(an: Analysis, spec: FieldSpec, vocabulary: Vocabulary) -> Iterator[Candidate]:
+    """Capitalised phrases one or two edits away from a listed value ("Elm Rdge")."""
+    exact = {(m.start, m.end) for m in vocabulary.find(an.text, loose=False)}
+    for match in _CAPITAL_RUN.finditer(an.text):
+        words = match.group().split()
+        for size in range(len(words), 1, -1):
+            phrase = " ".join(words[:size])
+            if len(phrase) < 6 or any(s <= match.start() < e for s, e in exact):
+                continue
+            misses = vocabulary.near_miss(phrase)
+            if misses:
+                value, variant, score = misses[0]
+                end = match.start() + len(" ".join(an.text[match.start() : match.end()].split()[:size]))
+                alternatives = tuple(Alternative(v, s) for v, _, s in misses[1:] if v != value)
+                reading = Reading(value, match.start(), end, 1.0, frozenset({"near_miss"}), alternatives=alternatives)
+                yield _candidate(spec, reading, "scan.v1", 0.3 * score, (f"near miss of {variant!r}",), an, fallback=True)
+                break
 
 
 # --- transition.v1 ----------------------------------------------------------------------------
@@ -400,7 +445,7 @@ def transition_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             continue
         chosen = (first, second)[side]
         reading = Reading(chosen.value, chosen.start, chosen.end, 1.0)
-        yield _candidate(spec, reading, "transition.v1", 0.72 if arrow else 0.66, ("a move written as from ... to ...",), an)
+        yield _candidate(spec, reading, "transition.v1", 0.86 if arrow else 0.8, ("a move written as from ... to ...",), an)
 
 
 # --- pattern.v1 ------------------------------------------------------------------------------------
@@ -412,9 +457,10 @@ def pattern_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
         return
     readings = [r for r in kinds.read(an, spec, 0, len(an.text)) if r.value is not None]
     distinct = {str(r.value) for r in readings}
-    score = 0.62 if len(distinct) == 1 else 0.35
+    score = 0.8 if len(distinct) == 1 else 0.35
     for reading in readings:
-        yield _candidate(spec, reading, "pattern.v1", score, (f"matches the {kind} pattern", f"{len(distinct)} distinct value(s) in the document"), an)
+        yield _candidate(spec, reading, "pattern.v1", score, (f"matches the {kind} pattern", f"{len(distinct)} distinct value(s) in the document"),
+                         an, fallback=len(distinct) > 1)
 
 
 def acting_for_alternatives(an: Analysis, candidate: Candidate) -> Candidate:

@@ -131,7 +131,7 @@ def _line_pairs(text: str, line: Span, index: int, lines: list[Span]) -> list[La
         label_start, label_end = _strip_edges(text, offset, dash.start())
         value_start, value_end = _strip_edges(text, dash.end(), body_end)
         if value_end > value_start:
-            return [LabelPair(norm(text[label_start:label_end]), Span(label_start, label_end), Span(value_start, value_end), "dash", 0.6)]
+            return [LabelPair(norm(text[label_start:label_end]), Span(label_start, label_end), Span(value_start, value_end), "dash", 0.85)]
     if body and len(body.split()) <= 4 and _label_ok(body) and not _SENTENCE_END.search(body):
         value = _next_value_line(text, index, lines)
         if value is not None:

@@ -47,7 +47,7 @@ def cue_match(cue: str, label: str) -> float:
     score = 0.0
     if _contains_words(label_words, cue_words):
         coverage = len(cue_words) / len(label_words)
-        score = 0.55 + 0.35 * coverage
+        score = (0.8 + 0.2 * coverage) if len(cue_words) > 1 else (0.6 + 0.3 * coverage)
     elif len(label_words) < len(cue_words) and cue_words[: len(label_words)] == label_words:
         # a shortened label: "Current:" for the cue "current site"
         score = 0.5 + 0.25 * len(label_words) / len(cue_words)
@@ -189,6 +189,8 @@ def leading_name(text: str, offset: int = 0, max_tokens: int = 4) -> tuple[int, 
             tokens.append((match.start(), match.end(), word))
             continue
         if not _name_token(word) or lowered in _NOT_NAME or word.lower() in _NOT_NAME:
+            if tokens and (lowered in TITLE_HEADS or word[:1].isdigit()):
+                return None  # "Cold Store Operations Manager", "May 27": not a name
             break
         tokens.append((match.start(), match.end(), word))
         if len(tokens) >= max_tokens:
