@@ -12,13 +12,13 @@ sites:
 Departments: Surgery, Nursing, Client Services, Laboratory, Administration.
 Employee IDs are ``TV`` followed by five digits (``TV30418``).
 
-Recurring cast: Renée Baptiste (Director of People & Culture), Tomasz
-Włodarczyk (HR Business Partner), Ingrid Sørbø (Talent Acquisition
+Recurring cast: Renée Baptiste (Director of People & Culture), Radosław
+Włodarczyk (HR Business Partner), Sigrid Sørbø (Talent Acquisition
 Coordinator), Zoë Castellanos (Payroll & Benefits), Desmond Achterberg (COO),
-Dr. Amara Nwosu-Hale (Medical Director, Juniper Wharf), Dr. Kenji Arakawa
+Dr. Ifeoma Adeyemi-Hale (Medical Director, Juniper Wharf), Dr. Haruto Arakawa
 (Hospital Manager, Oriel Street), Lucía Ferrández (Practice Manager, Hadley
-Pines), Dr. Priya Raghunathan (Chief of Surgery), Owen Tremblay (Client
-Services Lead), Malak Haddad (Laboratory Supervisor) and Joaquín Beltrán
+Pines), Dr. Saanvi Krishnamurthy (Chief of Surgery), Rowan Tremblay (Client
+Services Lead), Malak Nasser (Laboratory Supervisor) and Ignacio Beltrán
 (Nursing Manager).  Candidates and employees are invented too.  E-mail
 addresses use the reserved ``.example`` TLD, phone numbers 555-01xx and IP
 addresses the documentation ranges.
@@ -91,7 +91,7 @@ summarized below.</p>
 <table>
 <tr><th>Position</th><td>Associate Veterinarian</td></tr>
 <tr><th>Location</th><td>Oriel St. Clinic</td></tr>
-<tr><th>Reports to</th><td>Dr. Kenji Arakawa, Hospital Manager</td></tr>
+<tr><th>Reports to</th><td>Dr. Haruto Arakawa, Hospital Manager</td></tr>
 <tr><th>Start date</th><td>Monday, June 2, 2025</td></tr>
 <tr><th>Base salary</th><td>$118,500 per year, paid bi-weekly</td></tr>
 <tr><th>Signing bonus</th><td>$5,000, paid with your first paycheck</td></tr>
@@ -118,7 +118,7 @@ options.</p>
 <p>Ren&eacute;e Baptiste<br>
 Director of People &amp; Culture</p>
 
-<p><small>cc: Dr. Kenji Arakawa; Zo&euml; Castellanos</small></p>
+<p><small>cc: Dr. Haruto Arakawa; Zo&euml; Castellanos</small></p>
 </body>
 </html>
 """
@@ -139,7 +139,7 @@ RE: Offer of employment - Laboratory Technologist
 Thank you for meeting the lab team at your panel interview on December 2.
 I am pleased to offer you the role of Laboratory Technologist in our
 in-house diagnostic laboratory at TMH, our main hospital on Cobb Avenue.
-You will report to Malak Haddad, Laboratory Supervisor.
+You will report to Malak Nasser, Laboratory Supervisor.
 
 Pay. Your starting base salary will be $61,750 annually, paid bi-weekly.
 The laboratory shares a weekend on-call rota; each on-call weekend carries
@@ -164,7 +164,7 @@ Renée Baptiste
 Director of People & Culture
 Tallowbrook Veterinary Partners
 
-cc: Malak Haddad
+cc: Malak Nasser
 """
 
 OFFER_KEARNEY_DOCX = {
@@ -208,13 +208,13 @@ OFFER_KEARNEY_DOCX = {
             "accept, please sign below and return a copy to me by July 3, 2025.",
         ),
         ("p", "Kind regards,"),
-        ("p", "Ingrid Sørbø\nTalent Acquisition Coordinator, on behalf of Lucía Ferrández"),
+        ("p", "Sigrid Sørbø\nTalent Acquisition Coordinator, on behalf of Lucía Ferrández"),
         ("p", "Accepted: ______________________________   Date: ______________"),
     ],
 }
 
-OFFER_CARVALHO_PDF = {
-    "title": "Offer of Employment - Mateus Carvalho",
+OFFER_RIBEIRO_PDF = {
+    "title": "Offer of Employment - Mateus Ribeiro",
     "pages": [
         [
             ("h", "Tallowbrook Veterinary Partners"),
@@ -225,11 +225,11 @@ OFFER_CARVALHO_PDF = {
             ),
             ("gap",),
             ("p", "August 12, 2025"),
-            ("p", "Mateus Carvalho\n19 Willet Court\nTallowbrook"),
+            ("p", "Mateus Ribeiro\n19 Willet Court\nTallowbrook"),
             ("p", "Dear Mateus,"),
             (
                 "p",
-                "On behalf of Dr. Amara Nwosu-Hale and the whole overnight team, I am happy to "
+                "On behalf of Dr. Ifeoma Adeyemi-Hale and the whole overnight team, I am happy to "
                 "offer you the position of Registered Veterinary Technician on our Emergency & "
                 "Critical Care team at the Juniper Wharf emergency hospital.",
             ),
@@ -248,7 +248,7 @@ OFFER_CARVALHO_PDF = {
             ),
             (
                 "p",
-                "Reporting. You will report to Dr. Amara Nwosu-Hale, Medical Director at Juniper "
+                "Reporting. You will report to Dr. Ifeoma Adeyemi-Hale, Medical Director at Juniper "
                 "Wharf, and day to day to the shift lead on duty.",
             ),
             ("small", "Page 1 of 2"),
@@ -266,8 +266,8 @@ OFFER_CARVALHO_PDF = {
                 "Please confirm your acceptance by August 22, 2025.",
             ),
             ("p", "Sincerely,"),
-            ("p", "Ingrid Sørbø\nTalent Acquisition Coordinator"),
-            ("small", "cc: Dr. Amara Nwosu-Hale; Zoë Castellanos, Payroll & Benefits"),
+            ("p", "Sigrid Sørbø\nTalent Acquisition Coordinator"),
+            ("small", "cc: Dr. Ifeoma Adeyemi-Hale; Zoë Castellanos, Payroll & Benefits"),
             ("gap",),
             ("p", "I accept the offer of employment described in this letter."),
             ("p", "Signature: ______________________________   Date: ______________"),
@@ -296,7 +296,7 @@ Confidential. File in the employee's personnel record.
 | Hire date | 03/08/2021 |
 | Last day of employment | 04/25/2025 |
 | Interview date | 04/22/2025 |
-| Interviewer | Tomasz Włodarczyk, HR Business Partner |
+| Interviewer | Radosław Włodarczyk, HR Business Partner |
 
 ## Reason for leaving
 
@@ -309,7 +309,7 @@ desk" and said it was not a factor.
 
 ## Feedback
 
-- Enjoyed the team and the clients; praised Dr. Kenji Arakawa's support
+- Enjoyed the team and the clients; praised Dr. Haruto Arakawa's support
   during last year's renovation.
 - Suggested a formal lead-CSR role with a training path.
 - The January scheduling change left Saturdays short-staffed; raised as
@@ -322,20 +322,20 @@ desk" and said it was not a factor.
   Zoë Castellanos (Payroll & Benefits).
 """
 
-EXIT_MOKOENA_DOCX = {
-    "title": "Exit Interview Form - Thandiwe Mokoena",
+EXIT_SITHOLE_DOCX = {
+    "title": "Exit Interview Form - Nomvula Sithole",
     "blocks": [
         ("heading", "Exit Interview Form"),
         ("p", "Tallowbrook Veterinary Partners · People & Culture · Confidential"),
         (
             "table",
             [
-                ("Employee", "Thandiwe Mokoena"),
+                ("Employee", "Nomvula Sithole"),
                 ("Employee ID", "TV21877"),
                 ("Job title", "Lead Veterinary Technician"),
                 ("Department", "Veterinary Nursing"),
                 ("Site", "Tallowbrook Main Hospital"),
-                ("Manager", "Joaquín Beltrán"),
+                ("Manager", "Ignacio Beltrán"),
                 ("Resignation received", "May 28, 2025"),
                 ("Final working day", "June 30, 2025"),
                 ("Interview date", "June 24, 2025"),
@@ -350,11 +350,11 @@ EXIT_MOKOENA_DOCX = {
         ),
         (
             "p",
-            "Comments: Thandiwe's partner has accepted a residency in another state and the "
+            "Comments: Nomvula's partner has accepted a residency in another state and the "
             "family moves in the first week of July. She said she would have stayed otherwise "
             "and described the nursing team as \u201cthe best I have worked with\u201d. She "
             "asked whether remote relief work was possible; it is not, for a technician role. "
-            "She praised Joaquín's rota planning and asked that the new anesthesia monitors "
+            "She praised Ignacio's rota planning and asked that the new anesthesia monitors "
             "be rolled out to all three treatment rooms.",
         ),
         ("p", "Would you recommend Tallowbrook as a place to work?   [X] Yes   [ ] No"),
@@ -370,11 +370,11 @@ Employee: Björn Halvorsen        Emp #: TV10562
 Role: Senior Surgical Technician  Dept: Surgery / OR, Tallowbrook Main
 Notice given: 08/15/2025 (agreed last day was 09/26/2025)
 Last shift: Fri 09/12/2025 (moved up at employee's request)
-Interviewer: Tomasz Włodarczyk (HRBP)
+Interviewer: Radosław Włodarczyk (HRBP)
 Interview held: 09/09/2025
 
 Notes:
-* 11 yrs with TVP, the last 6 in surgery under Dr. Priya Raghunathan.
+* 11 yrs with TVP, the last 6 in surgery under Dr. Saanvi Krishnamurthy.
 * Main reason: workload. The surgical schedule went from 2 to 3 OR rooms
   in March without extra techs; he regularly stays 2+ hrs past his shift
   and says he is "burned out".
@@ -421,8 +421,8 @@ TRANSFER_FUJIMURA_PDF = {
             ),
             ("gap",),
             ("h3", "Section C - Approvals"),
-            ("line", "Current manager: Owen Tremblay - Approved 06/04/2025"),
-            ("line", "Receiving manager: Dr. Kenji Arakawa - Approved 06/05/2025"),
+            ("line", "Current manager: Rowan Tremblay - Approved 06/04/2025"),
+            ("line", "Receiving manager: Dr. Haruto Arakawa - Approved 06/05/2025"),
             ("line", "Final approval (People & Culture): Renée Baptiste - Approved 06/09/2025"),
             ("gap",),
             (
@@ -439,7 +439,7 @@ TRANSFER_OSEI_MD = """\
 
 **To:** Desmond Achterberg, Chief Operating Officer
 **From:** Lucía Ferrández, Practice Manager, Hadley Pines Equine Center
-**Cc:** Dr. Amara Nwosu-Hale; Tomasz Włodarczyk (People & Culture)
+**Cc:** Dr. Ifeoma Adeyemi-Hale; Radosław Włodarczyk (People & Culture)
 **Date:** August 18, 2025
 **Re:** Transfer request — Kwabena Osei (TV19044)
 
@@ -457,10 +457,10 @@ cannot give him at the equine center.
 | Schedule | Days, Mon–Fri | Nights, 3 × 12 h |
 
 Kwabena originally asked to start on September 1. I would like to keep him
-through our fall vaccination clinics, and Dr. Nwosu-Hale is happy with a
+through our fall vaccination clinics, and Dr. Adeyemi-Hale is happy with a
 later start, so we have agreed on an **effective date of September 15, 2025**.
 
-Dr. Nwosu-Hale has confirmed the opening and supports the move. I support it
+Dr. Adeyemi-Hale has confirmed the opening and supports the move. I support it
 too and will backfill his position. Your sign-off is the final approval
 needed.
 
@@ -471,12 +471,12 @@ Lucía
 **Decision:** Approved — Desmond Achterberg, COO, 08/21/2025
 """
 
-TRANSFER_LINDGREN_HTML = """\
+TRANSFER_SUNDQVIST_HTML = """\
 <!DOCTYPE html>
 <html lang="en">
 <head>
 <meta charset="utf-8">
-<title>Internal Transfer Request &ndash; Elin Lindgren</title>
+<title>Internal Transfer Request &ndash; Elin Sundqvist</title>
 </head>
 <body>
 <h1>Internal Transfer Request</h1>
@@ -484,7 +484,7 @@ TRANSFER_LINDGREN_HTML = """\
 submitted through the HR portal</p>
 
 <table>
-<tr><td>Employee</td><td>Elin Lindgren</td></tr>
+<tr><td>Employee</td><td>Elin Sundqvist</td></tr>
 <tr><td>Employee ID</td><td>TV33105</td></tr>
 <tr><td>Current site</td><td>Juniper Wharf ER</td></tr>
 <tr><td>Current title</td><td>Veterinary Technician</td></tr>
@@ -503,9 +503,9 @@ the hand-over month if that helps the night schedule.</p>
 
 <h2>Approval trail</h2>
 <ul>
-<li>Current manager &ndash; Dr. Amara Nwosu-Hale: <em>endorsed</em>, 09/04/2025
+<li>Current manager &ndash; Dr. Ifeoma Adeyemi-Hale: <em>endorsed</em>, 09/04/2025
 (&ldquo;we&rsquo;ll miss her, but it&rsquo;s the right move&rdquo;)</li>
-<li>Receiving manager &ndash; Dr. Priya Raghunathan: <em>endorsed</em>, 09/05/2025</li>
+<li>Receiving manager &ndash; Dr. Saanvi Krishnamurthy: <em>endorsed</em>, 09/05/2025</li>
 <li>Final approval (COO) &ndash; Desmond Achterberg: <strong>pending</strong></li>
 </ul>
 
@@ -520,15 +520,15 @@ be confirmed once the COO has signed off.</p>
 # --------------------------------------------------------------------------
 
 EMAIL_FRONT_DESK_HEADERS = [
-    "Return-Path: <owen.tremblay@tallowbrookvet.example>",
+    "Return-Path: <rowan.tremblay@tallowbrookvet.example>",
     "Received: from tmh-ws-114.tallowbrookvet.example ([198.51.100.44])",
     "\tby mail.tallowbrookvet.example with ESMTPSA id 7Qm2kD;",
     "\tFri, 21 Mar 2025 04:15:02 +0000",
     "Message-ID: <20250320211500.4f2a91@tmh-ws-114.tallowbrookvet.example>",
     "Date: Thu, 20 Mar 2025 21:15:00 -0700",
-    "From: owen.tremblay@tallowbrookvet.example",
+    "From: rowan.tremblay@tallowbrookvet.example",
     "To: cs-oriel@tallowbrookvet.example, cs-main@tallowbrookvet.example",
-    "Cc: kenji.arakawa@tallowbrookvet.example",
+    "Cc: haruto.arakawa@tallowbrookvet.example",
     "Subject: Saturday front desk coverage - March 22",
     "MIME-Version: 1.0",
     "Content-Type: text/plain; charset=us-ascii",
@@ -550,9 +550,9 @@ building and the side-door code is the same as last month.
 Reply to me by Friday noon if you can help.
 
 Thanks,
-Owen
+Rowan
 
-Owen Tremblay
+Rowan Tremblay
 Client Services Lead, Tallowbrook Main Hospital
 (541) 555-0124
 """
@@ -627,7 +627,7 @@ EMAIL_WELCOME_HEADERS = [
     "Date: Fri, 2 Jan 2026 10:12:40 -0800",
     "From: =?UTF-8?Q?Ren=C3=A9e_Baptiste?= <renee.baptiste@tallowbrookvet.example>",
     "To: =?UTF-8?Q?Hana_Dvo=C5=99=C3=A1kov=C3=A1?= <hana.dvorakova@mailbox.example>",
-    "Cc: Malak Haddad <malak.haddad@tallowbrookvet.example>",
+    "Cc: Malak Nasser <malak.nasser@tallowbrookvet.example>",
     "Subject: =?UTF-8?Q?Welcome_to_Tallowbrook=2C_Hana_=E2=80=93_your_first?=",
     " =?UTF-8?Q?_day_on_Monday?=",
     "MIME-Version: 1.0",
@@ -642,7 +642,7 @@ Happy new year, and welcome to Tallowbrook Veterinary Partners! We are all
 looking forward to Monday, January 5. Here is what to expect on your first
 day at the main hospital:
 
-- 8:30 a.m.: ask for Malak Haddad at the main reception on Cobb Avenue.
+- 8:30 a.m.: ask for Malak Nasser at the main reception on Cobb Avenue.
 - 9:00 a.m.: paperwork with me (bring ID for your I-9 and your bank
   details for payroll).
 - 11:00 a.m.: tour of the diagnostic laboratory and safety briefing.
@@ -666,9 +666,9 @@ EMAIL_PANEL_REPLY_HEADERS = [
     "In-Reply-To: <CAIs9-panel-0416@tallowbrookvet.example>",
     "References: <CAIs9-panel-0416@tallowbrookvet.example>",
     "Date: Wed, 16 Apr 2025 21:42:09 -0700",
-    "From: Kenji Arakawa <kenji.arakawa@tallowbrookvet.example>",
-    "To: =?UTF-8?Q?Ingrid_S=C3=B8rb=C3=B8?= <ingrid.sorbo@tallowbrookvet.example>",
-    "Cc: Priya Raghunathan <priya.raghunathan@tallowbrookvet.example>",
+    "From: Haruto Arakawa <haruto.arakawa@tallowbrookvet.example>",
+    "To: =?UTF-8?Q?Sigrid_S=C3=B8rb=C3=B8?= <sigrid.sorbo@tallowbrookvet.example>",
+    "Cc: Saanvi Krishnamurthy <saanvi.krishnamurthy@tallowbrookvet.example>",
     "Subject: Re: Interview panel for Associate Veterinarian (Oriel St.)",
     "MIME-Version: 1.0",
     "Content-Type: text/plain; charset=utf-8",
@@ -676,31 +676,31 @@ EMAIL_PANEL_REPLY_HEADERS = [
 ]
 
 EMAIL_PANEL_REPLY_BODY = """\
-Hi Ingrid,
+Hi Sigrid,
 
 Thursday the 24th works for me. Let's do the case discussion at 10:00 in
 the Oriel Street conference room and the working interview in the
-afternoon with the appointment team. Priya, if you can join for the
+afternoon with the appointment team. Saanvi, if you can join for the
 surgical questions at 10:00 that would be great.
 
 Could you send Dr. Whitlock-Reyes the parking instructions?
 
-Kenji
+Haruto
 
 --
-Dr. Kenji Arakawa, DVM
+Dr. Haruto Arakawa, DVM
 Hospital Manager, Oriel Street Clinic
 (541) 555-0163
 
-On Wed, Apr 16, 2025 at 2:10 PM Ingrid Sørbø <ingrid.sorbo@tallowbrookvet.example> wrote:
-> Hi Kenji,
+On Wed, Apr 16, 2025 at 2:10 PM Sigrid Sørbø <sigrid.sorbo@tallowbrookvet.example> wrote:
+> Hi Haruto,
 >
 > Dr. Jonah Whitlock-Reyes is available for an in-person panel interview
 > on Thursday, April 24 or Monday, April 28. Which day suits you and Dr.
-> Raghunathan better? I'd like to confirm with him by Friday.
+> Krishnamurthy better? I'd like to confirm with him by Friday.
 >
 > Thanks,
-> Ingrid Sørbø
+> Sigrid Sørbø
 > Talent Acquisition Coordinator
 """
 
@@ -863,14 +863,14 @@ def documents() -> dict[str, bytes]:
     return {
         "offer_letter/offer_whitlock-reyes.html": utf8(OFFER_WHITLOCK_REYES_HTML),
         "offer_letter/offer_kearney.docx": build_docx(OFFER_KEARNEY_DOCX),
-        "offer_letter/offer_carvalho.pdf": build_pdf(OFFER_CARVALHO_PDF),
+        "offer_letter/offer_ribeiro.pdf": build_pdf(OFFER_RIBEIRO_PDF),
         "offer_letter/offer_dvorakova.txt": utf8(OFFER_DVORAKOVA_TXT),
         "exit_interview/exit_ambrose.md": utf8(EXIT_AMBROSE_MD),
-        "exit_interview/exit_mokoena.docx": build_docx(EXIT_MOKOENA_DOCX),
+        "exit_interview/exit_sithole.docx": build_docx(EXIT_SITHOLE_DOCX),
         "exit_interview/exit_halvorsen.txt": utf8(EXIT_HALVORSEN_TXT),
         "transfer_request/transfer_fujimura.pdf": build_pdf(TRANSFER_FUJIMURA_PDF),
         "transfer_request/transfer_osei.md": utf8(TRANSFER_OSEI_MD),
-        "transfer_request/transfer_lindgren.html": utf8(TRANSFER_LINDGREN_HTML),
+        "transfer_request/transfer_sundqvist.html": utf8(TRANSFER_SUNDQVIST_HTML),
         "email/front_desk_saturday_coverage.eml": build_email_plain(
             EMAIL_FRONT_DESK_HEADERS, EMAIL_FRONT_DESK_BODY, "7bit"
         ),

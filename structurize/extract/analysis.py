@@ -51,6 +51,8 @@ _SUPERSEDED_BEFORE = re.compile(
 )
 _REVISION_SECTION = re.compile(r"^\W*(?:update[ds]?|correction|corrected|revised|revision|amendment|amended|change)\b", re.IGNORECASE)
 _SENTENCE_BREAK = re.compile(r"(?<=[.!?])\s+(?=[A-Z\"“(])|\n\s*\n|\n(?=\s*[-*•]\s)")
+#: Words whose full stop does not end a sentence ("Dr. Amara ...").
+_ABBREVIATIONS = frozenset("dr mr mrs ms mx st co inc ltd no jr sr vs mt ft dept prof etc approx".split())
 _CAPITALISED = re.compile(r"(?<![\w'’-])[A-Z][\w'’-]+\s+[A-Z]")
 _FIRST_PERSON = re.compile(r"^(?:i|me|myself|i am|i'm|i've|i will)$", re.IGNORECASE)
 
@@ -119,6 +121,10 @@ class Analysis:
     def _sentence_starts(self) -> list[int]:
         starts = [0]
         for match in _SENTENCE_BREAK.finditer(self.text):
+            before = self.text[max(0, match.start() - 6) : match.start()]
+            word = re.split(r"[\s(]", before)[-1].rstrip(".!?").lower()
+            if self.text[match.start() - 1 : match.start()] == "." and (word in _ABBREVIATIONS or len(word) == 1):
+                continue
             starts.append(match.end())
         for line in self.doc.lines:
             starts.append(line.start)

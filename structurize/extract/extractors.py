@@ -127,9 +127,16 @@ def label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
         label = pair.label
         match, cue = _best_cue(spec, label)
         if pair.column:
-            column_match, column_cue = _best_cue(spec, pair.column)
-            if column_match > match:
-                match, cue = column_match * 0.9, column_cue
+            # A cell of a wider table is named by its row and column headings together;
+            # the row heading alone will do only when the column heading names no field.
+            options = [pair.column, f"{pair.column} {label}", f"{label} {pair.column}"]
+            if not any(_best_cue(other, pair.column)[0] >= MIN_LABEL_MATCH for other in an.schema.fields):
+                options.append(label)
+            match, cue, label = 0.0, "", label
+            for option in options:
+                option_match, option_cue = _best_cue(spec, option)
+                if option_match > match:
+                    match, cue, label = option_match, option_cue, option
         if match < MIN_LABEL_MATCH:
             continue
         margin = _owner_margin(an, spec, label, match)
@@ -306,6 +313,8 @@ def _signature_for_address(an: Analysis, spec: FieldSpec, address: str, evidence
     if signer is None:
         yield Candidate(spec.name, None, address, Span(0, 0), "header.v1", 0.6, evidence + ("no display name and no signature",), frozenset({"stated_missing"}))
         return
+    name = an.complete_name(signer.name) or signer.name
+    signer = Person(signer.start, signer.end, name, signer.source)
     local = re.split(r"[._-]", address.split("@")[0].lower())
     tokens = [t.lower() for t in signer.name.split()]
     agrees = bool(set(local) & set(tokens))

@@ -15,7 +15,7 @@ from decimal import Decimal
 from typing import Any
 
 from ..schema.model import FieldSpec
-from ..types import Alternative
+from ..types import Alternative, Span
 from .analysis import Analysis
 from .money import period_in
 from .text import TITLE_HEADS, fold, leading_name, normalise_name
@@ -25,6 +25,10 @@ _STATED_MISSING = re.compile(
     r"not\s+(?:yet\s+)?(?:known|decided|available|provided|stated|applicable|given|on\s+file|confirmed|"
     r"on\s+the\b|recorded|listed|included)|to\s+be\s+(?:confirmed|decided|determined|advised|agreed)|"
     r"\?+(?:\s|$)|[-–—]+\s*$|_{3,}|to\s+follow\b|see\s+below\b)",
+    re.IGNORECASE,
+)
+_PENDING = re.compile(
+    r"\b(?:pending|awaiting|not yet (?:approved|signed|given|received)|to be (?:signed|approved|confirmed)|tbc|tbd|outstanding)\b",
     re.IGNORECASE,
 )
 _EMAIL = re.compile(r"(?<![\w.+-])[\w.+-]+@[\w-]+(?:\.[\w-]+)+(?![\w-])")
@@ -81,6 +85,11 @@ def read_person(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Rea
     found = leading_name(segment[lead:], start + lead)
     reading = _person_reading(an, found) if found is not None else None
     if reading is not None:
+        if _PENDING.search(an.text[reading.end : end]):
+            # "Final approval – D. Achterberg: pending": named, but has not acted yet
+            alternative = Alternative(reading.value, reading.quality * 0.5, Span(reading.start, reading.end))
+            return [Reading(None, reading.start, end, 0.85, frozenset({"stated_missing", "pending"}), alternatives=(alternative,),
+                            evidence=("marked as pending",))]
         out.append(reading)
     for person in an.ner_people:
         if start <= person.start < end and (found is None or person.start >= found[1]):
