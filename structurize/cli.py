@@ -178,6 +178,7 @@ def score_command(
 def _render_score(score, show_mistakes: bool) -> None:  # type: ignore[no-untyped-def]
     from rich.table import Table
 
+    wide = Console(highlight=False, width=None if out.is_terminal else 132)
     table = Table(title="structurize score", show_lines=False)
     for column in ("scope", "cells", "accuracy", "precision", "recall", "review load", "errors flagged"):
         table.add_column(column, justify="right" if column != "scope" else "left")
@@ -188,7 +189,7 @@ def _render_score(score, show_mistakes: bool) -> None:  # type: ignore[no-untype
     for name, item in rows:
         table.add_row(name, str(item.cells), f"{item.accuracy:.3f}", f"{item.precision:.3f}", f"{item.recall:.3f}",
                       f"{item.review_load:.3f}", f"{item.error_recall:.3f} ({item.wrong_flagged}/{item.wrong})")
-    out.print(table)
+    wide.print(table)
     if show_mistakes:
         for mistake in score.mistakes:
             mark = "flagged" if mistake.flagged else "NOT flagged"

@@ -27,6 +27,8 @@ _STATED_MISSING = re.compile(
     r"\?+(?:\s|$)|[-–—]+\s*$|_{3,}|to\s+follow\b|see\s+below\b)",
     re.IGNORECASE,
 )
+#: A surname in capitals, a comma, then the given name(s): "REED, Samira".
+_SURNAME_FIRST = re.compile(r"[A-ZÀ-ÖØ-Þ][A-ZÀ-ÖØ-Þ'’-]+,\s*[A-ZÀ-ÖØ-Þ][a-zß-öø-ÿ'’-]+(?:[ -][A-ZÀ-ÖØ-Þ][a-zß-öø-ÿ'’-]+)?")
 _PENDING = re.compile(
     r"\b(?:pending|awaiting|not yet (?:approved|signed|given|received)|to be (?:signed|approved|confirmed)|tbc|tbd|outstanding)\b",
     re.IGNORECASE,
@@ -82,7 +84,11 @@ def read_person(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Rea
     if an.first_person(segment.strip(" .,;")[:6].split(" ")[0] if segment.strip() else ""):
         out.append(Reading(None, start, start + lead + 1, 0.8, frozenset({"first_person"})))
         return out
-    found = leading_name(segment[lead:], start + lead)
+    inverted = _SURNAME_FIRST.match(segment, lead)
+    if inverted is not None:  # "REED, Samira" → "Samira Reed"
+        found = (start + inverted.start(), start + inverted.end(), normalise_name(inverted.group()))
+    else:
+        found = leading_name(segment[lead:], start + lead)
     reading = _person_reading(an, found) if found is not None else None
     if reading is not None:
         if _PENDING.search(an.text[reading.end : end]):

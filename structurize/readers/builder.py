@@ -54,7 +54,10 @@ class TextBuilder:
     def add_text(self, text: str) -> Span:
         """Append a block of text, one line per ``\\n``."""
         start = self._length
-        for line in clean(text).split("\n"):
+        lines = clean(text).split("\n")
+        if len(lines) > 1 and lines[-1] == "":
+            lines.pop()  # a final newline ends the last line; it does not start a new one
+        for line in lines:
             self.add_line(line)
         return Span(start, self._length)
 
