@@ -27,9 +27,8 @@ from structurize.extract.ner import NoNer
 from structurize.options import ExtractOptions
 from structurize.readers import read_document
 from structurize.schema import schema_from_descriptor
-from structurize.validate import cast, to_text
 from structurize.types import FieldValue, ValueStatus
-from structurize.validate import validate_value
+from structurize.validate import cast, to_text, validate_value
 
 RELATIVE_BASE = dt.date(2025, 3, 14)  # CHECK_SOURCES.md B9: a Friday
 FULL_DATE = re.compile(r"\d{4}-\d{2}-\d{2}")  # RFC 3339 §5.6 full-date

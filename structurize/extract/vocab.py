@@ -146,7 +146,12 @@ class Vocabulary:
         return VocabMention(s, e, value, variant, negated, ticked, loose)
 
     def near_miss(self, phrase: str) -> list[tuple[str, str, float]]:
-        """Variants within the edit-distance limit of ``phrase``: ``(value, variant, score)``."""
+        """Variants near ``phrase``: ``(value, variant, similarity)``, best first.
+
+        A variant is near when it is at most ``fuzzy_distance`` edits away (rapidfuzz
+        Levenshtein distance, after case and dash folding) and at least 60 % similar
+        (``fuzz.ratio``), so that two edits never turn a four-letter word into another.
+        """
         target = fold(phrase)
         if not target or self.fuzzy_distance <= 0:
             return []
@@ -155,7 +160,7 @@ class Vocabulary:
         for _, score, index in process.extract(target, choices, scorer=fuzz.ratio, limit=5, score_cutoff=60):
             variant, value = self.pairs[index]
             distance = Levenshtein.distance(target, choices[index])
-            if distance <= self.fuzzy_distance and distance <= max(1, len(choices[index]) // 4):
+            if distance <= self.fuzzy_distance:
                 results.append((value, variant, score / 100))
         return results
 
