@@ -49,14 +49,14 @@ def guard(cell: Any) -> str:
     if cell is None:
         return ""
     text = str(cell)
-    if text.startswith(FORMULA_STARTS):
-        return "'" + text
+    if text.startswith(FORMULA_STARTS) or (text.startswith("'") and text[1:].startswith((*FORMULA_STARTS, "'"))):
+        return "'" + text  # the second case keeps the round trip through unguard exact
     return text
 
 
 def unguard(text: str) -> str:
     """Undo :func:`guard` when reading our own CSV back."""
-    if text.startswith("'") and text[1:].startswith(FORMULA_STARTS):
+    if text.startswith("'") and text[1:].startswith((*FORMULA_STARTS, "'")):
         return text[1:]
     return text
 

@@ -198,14 +198,6 @@ def test_csv_bytes_ordinary_text_unchanged(tmp_path, value):
         pytest.param("'-5 adjustment", id="apostrophe-minus"),
     ],
 )
-@pytest.mark.xfail(
-    reason=(
-        "structurize/write.py guard() leaves a value that starts with \"'\" unchanged, and "
-        "unguard() strips a leading \"'\" whenever a formula character follows, so an original "
-        "\"'=1+1\" is read back as \"=1+1\" (guard should also prefix values starting with \"'\")"
-    ),
-    strict=True,
-)
 def test_guard_unguard_apostrophe_values_round_trip(value):
     assert unguard(guard(value)) == value
 

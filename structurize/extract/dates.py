@@ -74,9 +74,9 @@ _PATTERNS: tuple[tuple[str, re.Pattern[str]], ...] = (
         "relative",
         re.compile(
             r"(?<![\w])(?P<rel>today|tomorrow|yesterday|"
-            r"(?:(?:in\s+)?(?P<n>\d{1,2}|a|an|one|two|three|four|five|six|seven|eight|nine|ten|eleven|twelve|fourteen|thirty)\s+"
-            r"(?P<unit>days?|weeks?|months?)\s+(?:from\s+(?:today|now|the\s+date\s+of\s+this\s+(?:letter|email|note))|later|time|after\s+today))|"
-            r"next\s+(?P<next>monday|tuesday|wednesday|thursday|friday|saturday|sunday|week))(?![\w])",
+            r"(?:(?P<in>in\s+)?(?P<n>\d{1,2}|a|an|one|two|three|four|five|six|seven|eight|nine|ten|eleven|twelve|fourteen|thirty)\s+"
+            r"(?P<unit>days?|weeks?|months?)(?:\s+(?:from\s+(?:today|now|the\s+date\s+of\s+this\s+(?:letter|email|note))|later|time|after\s+today|ago))?)|"
+            r"(?:next|last|this\s+coming)\s+(?P<next>monday|tuesday|wednesday|thursday|friday|saturday|sunday|week))(?![\w])",
             re.IGNORECASE,
         ),
     ),
@@ -120,6 +120,8 @@ def _weekday(match: re.Match[str]) -> int | None:
 
 def _mention(kind: str, match: re.Match[str]) -> DateMention | None:
     start, end = match.span()
+    if kind == "relative" and match["unit"] and not match["in"] and not re.search(r"(?:from|later|time|after|ago)\s*\w*$", match.group(), re.IGNORECASE):
+        return None  # "two weeks" alone is a duration (a notice period), not a date
     weekday = _weekday(match)
     if kind == "iso":
         value = _safe_date(int(match["y"]), int(match["m"]), int(match["d"]))
@@ -245,9 +247,15 @@ def _relative(phrase: str, anchor: dt.date) -> dt.date | None:
         return anchor + dt.timedelta(days=1)
     if words == ["yesterday"]:
         return anchor - dt.timedelta(days=1)
-    if words[0] == "next" and words[1] in WEEKDAYS:
-        ahead = (WEEKDAYS[words[1]] - anchor.weekday()) % 7 or 7
+    if words[0] in ("next", "this") and words[-1] in WEEKDAYS:
+        ahead = (WEEKDAYS[words[-1]] - anchor.weekday()) % 7 or 7
         return anchor + dt.timedelta(days=ahead)
+    if words[0] == "last" and words[1] in WEEKDAYS:
+        back = (anchor.weekday() - WEEKDAYS[words[1]]) % 7 or 7
+        return anchor - dt.timedelta(days=back)
+    if words[-1] == "ago":
+        later = _relative(" ".join(words[:-1]) + " later", anchor)
+        return anchor - (later - anchor) if later else None
     match = re.search(r"(\d{1,2}|[a-z]+)\s+(day|week|month)", phrase.lower())
     if match:
         count = int(match[1]) if match[1].isdigit() else _NUMBER_WORDS.get(match[1])

@@ -10,9 +10,13 @@ never the headers quoted in it.
 
 from __future__ import annotations
 
+import datetime
 import email
 import email.policy
 import re
+from email.errors import HeaderParseError
+from email.header import decode_header, make_header
+from email.utils import getaddresses
 from email.message import EmailMessage
 from pathlib import Path
 
@@ -41,9 +45,11 @@ def read_email(path: Path, source: str) -> Document:
         raise ReadFailure("failed", "not_an_email", "no message headers found")
     builder = TextBuilder()
     warnings: list[str] = []
+    raw_headers = [(key.lower(), str(value)) for key, value in message.raw_items()]
     for name in HEADER_ORDER:
-        for value in message.get_all(name, []) or []:
-            _add_header(builder, name, value, warnings)
+        raws = [value for key, value in raw_headers if key == name.lower()]
+        for index, value in enumerate(message.get_all(name, []) or []):
+            _add_header(builder, name, value, warnings, raws[index] if index < len(raws) else "")
     builder.blank()
     body_start = builder.offset
     _add_body(builder, message, warnings)
@@ -53,7 +59,7 @@ def read_email(path: Path, source: str) -> Document:
     return builder.build(source, "reader.email.v1", encoding="utf-8", warnings=tuple(warnings))
 
 
-def _add_header(builder: TextBuilder, name: str, value: object, warnings: list[str]) -> None:
+def _add_header(builder: TextBuilder, name: str, value: object, warnings: list[str], raw: str) -> None:
     prefix = f"{name}: "
     value_start = builder.offset + len(prefix)
     groups = ()
@@ -63,7 +69,7 @@ def _add_header(builder: TextBuilder, name: str, value: object, warnings: list[s
         except Exception:  # a malformed address header: keep its text only
             warnings.append("bad_address_header")
     if groups:
-        text, addresses = _render_groups(groups, value_start)
+        text, addresses = _render_groups(groups, value_start, _encoded_names(raw))
         span = builder.add_line(prefix + text)
         builder.headers.append(Header(name, Span(value_start, span.end), addresses=addresses))
         return
@@ -76,10 +82,53 @@ def _add_header(builder: TextBuilder, name: str, value: object, warnings: list[s
             when = None
         if when is None:
             warnings.append("bad_date_header")
+        else:
+            when = _rfc5322_year(when, raw)
     builder.headers.append(Header(name, Span(value_start, span.end), date=when))
 
 
-def _render_groups(groups: tuple, start: int) -> tuple[str, tuple[Address, ...]]:
+_OBSOLETE_YEAR = re.compile(r"\b\d{1,2}\s+[A-Za-z]{3}\s+(\d{2,3})\s")
+
+
+def _rfc5322_year(when: datetime.datetime, raw: str) -> datetime.datetime:
+    """Two- and three-digit years as RFC 5322 §4.3 reads them (the stdlib uses a POSIX pivot).
+
+    00–49 → 2000–2049, 50–99 → 1950–1999, three digits → + 1900.
+    """
+    match = _OBSOLETE_YEAR.search(raw + " ")
+    if match is None:
+        return when
+    written = int(match.group(1))
+    if len(match.group(1)) == 3:
+        year = written + 1900
+    else:
+        year = written + (2000 if written < 50 else 1900)
+    try:
+        return when.replace(year=year)
+    except ValueError:
+        return when
+
+
+def _encoded_names(raw: str) -> dict[str, str]:
+    """Display names decoded from the raw header, by address.
+
+    RFC 2047 §6.2: white space between adjacent encoded words is ignored.  Python 3.11's
+    address parser keeps it (CPython gh-128110), so names made of encoded words are decoded
+    again here with ``email.header``, which follows the RFC.
+    """
+    if "=?" not in raw:
+        return {}
+    names = {}
+    for phrase, address in getaddresses([raw]):
+        if "=?" in phrase:
+            try:
+                names[address.lower()] = str(make_header(decode_header(phrase)))
+            except (LookupError, UnicodeError, ValueError, HeaderParseError):
+                continue
+    return names
+
+
+def _render_groups(groups: tuple, start: int, decoded: dict[str, str]) -> tuple[str, tuple[Address, ...]]:
     """Render address groups as ``Name <addr>, addr, Group: a, b;`` with spans for each part."""
     out: list[str] = []
     addresses: list[Address] = []
@@ -97,8 +146,8 @@ def _render_groups(groups: tuple, start: int) -> tuple[str, tuple[Address, ...]]
         for index, address in enumerate(group.addresses):
             if index:
                 put(", ")
-            display = address.display_name or ""
             addr = address.addr_spec or ""
+            display = decoded.get(addr.lower(), address.display_name or "")
             if display:
                 at = put(f"{display} <{addr}>")
                 name_span = Span(at, at + len(display))
