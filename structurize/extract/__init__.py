@@ -46,6 +46,8 @@ def register_builtin_extractors() -> None:
     register_extractor("role.v1", x.role_extractor, ("person",))
     register_extractor("scan.v1", x.scan_extractor, ("choice",))
     register_extractor("transition.v1", x.transition_extractor, ("choice",))
+    register_extractor("title-transition.v1", x.title_transition_extractor, ("job_title",))
+    register_extractor("subject.v1", x.subject_extractor, ("person",))
     register_extractor("pattern.v1", x.pattern_extractor, ("identifier", "email", "phone"))
 
 

@@ -54,6 +54,10 @@ _SENTENCE_BREAK = re.compile(r"(?<=[.!?])\s+(?=[A-Z\"“(])|\n\s*\n|\n(?=\s*[-*�
 #: Words whose full stop does not end a sentence ("Dr. Amara ...").
 _ABBREVIATIONS = frozenset("dr mr mrs ms mx st co inc ltd no jr sr vs mt ft dept prof etc approx".split())
 _CAPITALISED = re.compile(r"(?<![\w'’-])[A-Z][\w'’-]+\s+[A-Z]")
+_WRITTEN_BY = re.compile(
+    r"\b(?:written|prepared|recorded|compiled|completed|drafted|notes taken|minuted|filled in)\s+by\s*:?\s*|\bauthor\s*:\s*",
+    re.IGNORECASE,
+)
 _FIRST_PERSON = re.compile(r"^(?:i|me|myself|i am|i'm|i've|i will)$", re.IGNORECASE)
 
 
@@ -126,9 +130,24 @@ class Analysis:
             if self.text[match.start() - 1 : match.start()] == "." and (word in _ABBREVIATIONS or len(word) == 1):
                 continue
             starts.append(match.end())
+        previous = None
         for line in self.doc.lines:
-            starts.append(line.start)
+            # a line starts a sentence unless it continues a long line cut mid-sentence
+            # (PDF text and hard-wrapped mail): "... interviewed by" / "Tomasz Wierzbicki on ..."
+            if previous is None or not self._wrapped(previous, line):
+                starts.append(line.start)
+            previous = line
         return sorted(set(starts))
+
+    def _wrapped(self, previous: Span, line: Span) -> bool:
+        before = self.text[previous.start : previous.end].rstrip()
+        after = self.text[line.start : line.end].lstrip()
+        return (
+            len(before) >= 45
+            and bool(after)
+            and before[-1:].isalnum() | (before[-1:] in ",;-–(")
+            and not re.match(r"[-*•·▪◦>#|]|\d+[.)]\s|[\w ]{1,30}:", after)
+        )
 
     def sentence(self, offset: int) -> tuple[int, int]:
         """Bounds of the sentence (or line, for short lines) around ``offset``."""
@@ -191,11 +210,31 @@ class Analysis:
         dateline = self.dateline
         if dateline is not None and dateline.value is not None:
             return dateline.value, "dateline"
+        first = self._first_full_date()
+        if first is not None:
+            return first, "first date"
         years = [m.parts[2] if m.parts else m.value.year for m in self.date_mentions if (m.value or (m.parts and m.parts[2]))]
         if years:
             year = max(set(years), key=years.count)
             return dt.date(year, 6, 30), "common year"
         return None, ""
+
+    def _first_full_date(self) -> dt.date | None:
+        """The first date with a year in the first third of the document (notes of a meeting
+        usually open with the meeting's date)."""
+        order, known, _ = self.date_order
+        limit = max(200, len(self.text) // 3)
+        for mention in self.date_mentions:
+            if mention.start > limit:
+                break
+            if mention.kind == "relative" or (mention.parts and not mention.parts[2]):
+                continue
+            if self.excluded(mention.start):
+                continue
+            value, _ = datelib.resolve(mention, self.text, order, None, known)
+            if value is not None:
+                return value
+        return None
 
     @cached_property
     def dateline(self) -> DateRead | None:
@@ -219,7 +258,7 @@ class Analysis:
     def dates(self) -> list[DateRead]:
         order, known, _ = self.date_order
         anchor, source = self.anchor
-        weak = source == "common year"
+        weak = source in ("common year", "first date")
         out = []
         for mention in self.date_mentions:
             value, flags = datelib.resolve(mention, self.text, order, anchor, known)
@@ -309,6 +348,12 @@ class Analysis:
                 span = address.name_span or header.span
                 author = Person(span.start, span.end, normalise_name(address.name), "role")
         if author is None:
+            for match in _WRITTEN_BY.finditer(text):
+                if not self.excluded(match.start()):
+                    author = self.person_at(text[match.end() : match.end() + 80], match.end())
+                    if author:
+                        break
+        if author is None:
             for pair in self.pairs:
                 if pair.label == "from" and pair.source in ("line", "gap"):
                     author = self.person_at(text[pair.value_span.start : pair.value_span.end], pair.value_span.start)
@@ -367,10 +412,13 @@ class Analysis:
         tokens = fold(name).split()
         if len(tokens) >= 2 and not any(len(t.rstrip(".")) == 1 for t in tokens):
             return name
+        initials = name.strip(".").upper() if re.fullmatch(r"[A-Z]{2,3}\.?", name.strip()) else None
         matches = []
         for full in self.known_names:
             full_tokens = fold(full).split()
-            if len(tokens) == 1 and tokens[0] in (full_tokens[0], full_tokens[-1]):
+            if initials and "".join(t[0] for t in full.split() if t[:1].isupper()).upper() == initials:
+                matches.append(full)
+            elif len(tokens) == 1 and tokens[0] in (full_tokens[0], full_tokens[-1]):
                 matches.append(full)
             elif len(tokens) >= 2 and tokens[-1] == full_tokens[-1] and full_tokens[0].startswith(tokens[0].rstrip(".")):
                 matches.append(full)

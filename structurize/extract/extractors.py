@@ -31,6 +31,10 @@ from .text import cue_match, leading_name, norm
 
 #: Below this cue/label match a label is not taken as naming the field.
 MIN_LABEL_MATCH = 0.6
+#: Column headings that say what kind of value a cell holds, not which field it is.
+GENERIC_COLUMNS = frozenset(
+    "name names date dates signature signed status detail details value values response answer comments notes note info information".split()
+)
 LABEL_WEIGHT = 0.92
 PROSE_WEIGHT = 0.88
 PROSE_REACH = 110  #: characters after a cue in which a value may start
@@ -126,22 +130,26 @@ def label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             continue
         label = pair.label
         match, cue = _best_cue(spec, label)
-        if pair.column:
-            # A cell of a wider table is named by its row and column headings together;
-            # the row heading alone will do only when the column heading names no field.
-            options = [pair.column, f"{pair.column} {label}", f"{label} {pair.column}"]
+        if pair.column and pair.column not in GENERIC_COLUMNS:
+            # A cell of a wider table is named by its row and column headings together
+            # ("Title" × "Requested"); a cue must name the row, not only the column.
+            row_words = set(label.split())
+            options = [(f"{pair.column} {label}", True), (f"{label} {pair.column}", True)]
             if not any(_best_cue(other, pair.column)[0] >= MIN_LABEL_MATCH for other in an.schema.fields):
-                options.append(label)
-            match, cue, label = 0.0, "", label
-            for option in options:
+                options.append((label, False))
+            match, cue, chosen = 0.0, "", label
+            for option, needs_row in options:
                 option_match, option_cue = _best_cue(spec, option)
+                if needs_row and not set(norm(option_cue).split()) & row_words:
+                    continue
                 if option_match > match:
-                    match, cue, label = option_match, option_cue, option
+                    match, cue, chosen = option_match, option_cue, option
+            label = chosen
         if match < MIN_LABEL_MATCH:
             continue
         margin = _owner_margin(an, spec, label, match)
-        if margin > 0.2 and match + margin >= 0.95:
-            continue  # another field's cue names this label exactly
+        if margin >= 0.25 or (margin > 0.2 and match + margin >= 0.95):
+            continue  # another field's cues name this label clearly better
         ownership = 1.0 if margin <= 0.02 else max(0.3, 1.0 - 2 * margin)
         readings = kinds.read(an, spec, pair.value_span.start, pair.value_span.end)
         readings = [r for r in readings if r.quality > 0]
@@ -209,7 +217,7 @@ def prose_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             break
         if found or kind not in ("date", "person", "flag", "choice"):
             continue
-        before_start = max(sentence_start, hit.start - 45)
+        before_start = max(sentence_start, hit.start - 70)
         clause = an.text[before_start : hit.start]
         if kind == "person" and _FIRST_PERSON_CLAUSE.search(clause) and not an.excluded(hit.start):
             # "I would like to request a transfer": the writer is the person
@@ -362,11 +370,16 @@ def role_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
 
 
 def person_role_penalty(an: Analysis, spec: FieldSpec, candidate: Candidate) -> Candidate:
-    """People copied in, or the signer, are not the addressee-type person of a field."""
+    """Evidence from a cc line is weak; the signer and people copied in are not the
+    addressee-type person of a field."""
     from dataclasses import replace
 
+    if spec.hints.kind != "person" or candidate.extractor == "role.v1":
+        return candidate
+    if any(p.start <= candidate.span.start < p.end + 1 for p in an.roles.copied) and candidate.extractor == "prose.v1":
+        return replace(candidate, score=candidate.score * 0.5, evidence=candidate.evidence + ("on a cc line",))
     cues = [norm(cue) for cue in spec.hints.cues]
-    if spec.hints.kind != "person" or not any(cue in _ADDRESSEE_CUE for cue in cues) or candidate.extractor == "role.v1":
+    if not any(cue in _ADDRESSEE_CUE for cue in cues):
         return candidate
     roles = an.roles
     others = [p.name for p in (roles.signer, roles.principal, *roles.copied) if p is not None]
@@ -455,6 +468,51 @@ def transition_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
         chosen = (first, second)[side]
         reading = Reading(chosen.value, chosen.start, chosen.end, 1.0)
         yield _candidate(spec, reading, "transition.v1", 0.86 if arrow else 0.8, ("a move written as from ... to ...",), an)
+
+
+def title_transition_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    """"promotion from Reefer Technician II to Senior Reefer Technician": the new title."""
+    cues = [norm(cue) for cue in spec.hints.cues]
+    if not any(cue.split()[0] in ("new", "proposed", "requested") for cue in cues if cue):
+        return
+    for match in _FROM_TITLE.finditer(an.text):
+        if an.excluded(match.start()):
+            continue
+        first = kinds.title_phrase(an, match.end(), min(len(an.text), match.end() + 80))
+        if first is None:
+            continue
+        link = re.match(r"\s+to\s+(?:the\s+|a\s+|an\s+)?", an.text[first.end : first.end + 12], re.IGNORECASE)
+        if not link:
+            continue
+        second = kinds.title_phrase(an, first.end + link.end(), min(len(an.text), first.end + link.end() + 80))
+        if second is not None:
+            yield _candidate(spec, second, "title-transition.v1", 0.78, ("a change written as from <title> to <title>",), an)
+
+
+_FROM_TITLE = re.compile(r"\b(?:promot\w*|mov\w*|transfer\w*|chang\w*|step\w* up|progress\w*)\s+(?:\w+\s+){0,3}?from\s+(?:the\s+|a\s+|an\s+|his\s+|her\s+)?", re.IGNORECASE)
+
+
+def subject_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    """The person named right next to the document's identifier ("Ana Ruiz (HP40211)") is
+    the person the identifier belongs to: evidence for a person field that shares a cue word
+    with the identifier field ("employee name" / "employee number")."""
+    words = {word for cue in spec.hints.cues for word in norm(cue).split()} - {"name", "of", "the"}
+    for other in an.schema.fields:
+        if other.hints.kind != "identifier" or not words & {w for cue in other.hints.cues for w in norm(cue).split()}:
+            continue
+        for reading in kinds.read(an, other, 0, len(an.text)):
+            if reading.value is None or an.excluded(reading.start):
+                continue
+            line = an.line_of(reading.start)
+            before = an.text[line.start : reading.start]
+            name_at = max(before.rfind("|"), before.rfind(":"), before.rfind("·"), -1) + 1
+            person = an.person_at(before[name_at:], line.start + name_at)
+            if person is None or len(person.name.split()) < 2:
+                continue
+            gap = an.text[person.end : reading.start]
+            if len(gap) <= 20 and not re.search(r"[.;]", gap):
+                name = Reading(person.name, person.start, person.end, 1.0)
+                yield _candidate(spec, name, "subject.v1", 0.7, (f"named next to the {other.name} {reading.value}",), an)
 
 
 # --- pattern.v1 ------------------------------------------------------------------------------------

@@ -39,6 +39,7 @@ _NUMBER = re.compile(r"(?<![\w.])[-+]?\d{1,3}(?:,\d{3})+(?:\.\d+)?(?![\w])|(?<![
 _COMPOUND = re.compile(r"[A-Za-z0-9]+(?:[-./][A-Za-z0-9]+)*")
 _ID_SEPARATORS = re.compile(r"[-./ ]")
 _TITLE_WORD = re.compile(r"[A-Z][\w'’&-]*(?:\.(?=\w))?|[IVX]{1,4}\b|&|of|and|for|to|the|(?:\([^)]{1,30}\))")
+_DATE_LIKE = re.compile(r"^\W*\d{1,4}[/.-]\d{1,2}")
 _TITLE_LINKS = {"of", "and", "for", "&", "to", "the"}
 
 
@@ -327,7 +328,7 @@ def read_job_title(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[
             if kept:
                 break
             continue
-        if not words[0].isupper() and not words[0].isdigit():
+        if not words[0].isupper() or not re.search(r"[A-Za-z]{2}", words) or _DATE_LIKE.match(words):
             if kept:
                 break
             continue

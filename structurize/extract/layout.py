@@ -18,7 +18,7 @@ _LEAD = re.compile(r"^(?:\s*(?:[-*•·▪◦]|\d{1,2}[.)]|#{1,6}|>|\|)\s+|\s*\*
 #: Wide gaps and vertical bars between two pairs on one line.
 _SEGMENT_GAP = re.compile(r"\s{3,}|\s+\|\s+|\t+")
 _LABEL_OK = re.compile(r"^[^\W\d_][\w\s&/'’().#,+-]*(?<!\d)$")
-_COLON = re.compile(r"\s*(?:\*\*|__)?\s*(?:(?<!\d):(?!\d)|=)\s*(?:\*\*|__)?\s*")
+_COLON = re.compile(r"\s*(?:\*\*|__)?\s*(?:(?<!\d):(?!\d)|=|\s\.{3,}|\.{4,})\s*(?:\*\*|__)?\s*")  # ":", "=", dot leaders
 _DASH = re.compile(r"\s+[-–—]\s+")
 _SENTENCE_END = re.compile(r"[.!?]\s*$")
 MAX_LABEL_WORDS = 6
@@ -132,11 +132,12 @@ def _line_pairs(text: str, line: Span, index: int, lines: list[Span]) -> list[La
         value_start, value_end = _strip_edges(text, dash.end(), body_end)
         if value_end > value_start:
             return [LabelPair(norm(text[label_start:label_end]), Span(label_start, label_end), Span(value_start, value_end), "dash", 0.85)]
-    if body and len(body.split()) <= 4 and _label_ok(body) and not _SENTENCE_END.search(body):
+    question = body.endswith("?") and len(body.split()) <= 8 and _label_ok(body[:-1])
+    if body and (question or (len(body.split()) <= 4 and _label_ok(body) and not _SENTENCE_END.search(body))):
         value = _next_value_line(text, index, lines)
         if value is not None:
             label_start, label_end = _strip_edges(text, offset, body_end)
-            return [LabelPair(norm(text[label_start:label_end]), Span(label_start, label_end), value, "next_line", 0.6)]
+            return [LabelPair(norm(text[label_start:label_end].rstrip("?")), Span(label_start, label_end), value, "next_line", 0.6)]
     return []
 
 
@@ -155,12 +156,16 @@ def _pair(text: str, current: list[object]) -> LabelPair:
 
 
 def _next_value_line(text: str, index: int, lines: list[Span]) -> Span | None:
+    """The next non-empty line, unless it is itself a ``Label: value`` line."""
     for line in lines[index + 1 : index + 3]:
         start, end = _strip_edges(text, line.start, line.end)
         lead = _LEAD.match(text, start, end)
         if lead:
             start = lead.end()
         if end > start:
+            colon = _COLON.search(text, start, end)
+            if colon and colon.start() > start and _label_ok(text[start : colon.start()]) and len(text[start : colon.start()].split()) <= 4:
+                return None
             return Span(start, end)
     return None
 

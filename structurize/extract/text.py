@@ -31,7 +31,34 @@ def fold(text: str) -> str:
     return _SPACES.sub(" ", text).strip()
 
 
+#: Label words that HR forms use for the words cues use (common practice, no source).
+LABEL_SYNONYMS = {
+    "remuneration": "salary", "compensation": "salary", "wage": "salary", "wages": "salary", "earnings": "salary",
+    "hourly": "pay", "commencement": "start", "commencing": "start", "beginning": "start",
+    "leaver": "employee", "staff": "employee", "worker": "employee", "colleague": "employee",
+    "re-employ": "rehire", "re-employment": "rehire", "re-engage": "rehire", "re-engagement": "rehire", "reemploy": "rehire",
+    "issued": "dated", "written": "dated", "present": "current", "currently": "current", "existing": "current",
+    "home": "current", "destination": "new", "receiving": "new", "target": "new", "incoming": "new",
+    "future": "new", "after": "new", "post": "position", "authorised": "approved", "authorized": "approved",
+    "signed-off": "approved", "sanctioned": "approved", "workplace": "location", "depot": "site",
+}
+
+
+def canonical_label(label: str) -> str:
+    """A label with its words mapped to the words cues use ("Remuneration" → "salary")."""
+    return " ".join(LABEL_SYNONYMS.get(word, word) for word in label.split())
+
+
 def cue_match(cue: str, label: str) -> float:
+    """See :func:`_cue_match`; a label in synonyms scores 0.9 of the same label in cue words."""
+    score = _cue_match(cue, label)
+    canonical = canonical_label(label)
+    if canonical != label:
+        score = max(score, 0.9 * _cue_match(cue, canonical))
+    return score
+
+
+def _cue_match(cue: str, label: str) -> float:
     """How well a field cue names a label, 0..1.  Both are already :func:`norm`-ed.
 
     Exact equality scores 1.  A cue that appears as whole words inside the label scores by
@@ -51,6 +78,9 @@ def cue_match(cue: str, label: str) -> float:
     elif len(label_words) < len(cue_words) and cue_words[: len(label_words)] == label_words:
         # a shortened label: "Current:" for the cue "current site"
         score = 0.5 + 0.25 * len(label_words) / len(cue_words)
+    elif len(cue_words) >= 2 and set(cue_words) <= set(label_words):
+        # the cue's words in another order: "Role after move" for "new role" (via synonyms)
+        score = 0.75 + 0.15 * len(cue_words) / len(label_words)
     elif (
         len(label_words) >= 2 <= len(cue_words)
         and label_words[0] == cue_words[0]
@@ -88,17 +118,30 @@ def find_phrase(text: str, phrase: str, *, inflect: bool = False) -> Iterator[tu
         yield match.start(), match.end()
 
 
+_SUFFIXES = ("ments", "ment", "ions", "ion", "ings", "ing", "ies", "ied", "ed", "es", "s", "e")
+
+
+def stem(word: str) -> str:
+    """A crude English stem for matching variants: two passes of suffix stripping."""
+    word = word.lower().replace("’", "'")
+    for _ in range(2):
+        for suffix in _SUFFIXES:
+            if word.endswith(suffix) and len(word) - len(suffix) >= 3:
+                word = word[: -len(suffix)]
+                break
+    return word
+
+
 _PRONOUNS = frozenset("us you me him her them".split())
 
 
 def _inflected(word: str) -> str:
     if word.lower() in _PRONOUNS:
         return r"\S+(?:\s+\S+){0,4}?"  # "join us as" also finds "join Acme Co. as"
-    if not word.isalpha() or len(word) < 3:
+    if not word.isalpha() or len(word) < 4:
         return re.escape(word)
-    if word.endswith("e"):
-        return re.escape(word[:-1]) + r"(?:e|es|ed|ing)"
-    return re.escape(word) + r"(?:s|es|ed|ing|\w(?:ed|ing))?"
+    root = stem(word)  # "interviewed" → "interview": also finds "interview by"
+    return re.escape(root) + r"(?:e|es|ed|ing|s|er|ers|ion|ions|ment|\w(?:ed|ing))?"
 
 
 @lru_cache(maxsize=8192)
@@ -130,7 +173,7 @@ _NOT_NAME = {
     "analyst", "engineer", "technician", "specialist", "operator", "planner", "controller", "head",
     "department", "dept", "site", "office", "company", "co", "co.", "inc", "inc.", "ltd", "llc",
     "group", "plant", "depot", "terminal", "center", "centre", "street", "road", "avenue", "lane",
-    "drive", "court", "suite", "apt", "mr", "mrs", "ms", "miss", "dr", "mr.", "mrs.", "ms.", "dr.",
+    "drive", "court", "suite", "apt", "dc", "mr", "mrs", "ms", "miss", "dr", "mr.", "mrs.", "ms.", "dr.",
     "prof", "prof.", "monday", "tuesday", "wednesday", "thursday", "friday", "saturday", "sunday",
     "january", "february", "march", "april", "june", "july", "august", "september", "october",
     "november", "december", "payroll", "finance", "operations", "regional", "senior", "junior",
@@ -146,6 +189,12 @@ _NOT_NAME = {
     "general", "gm", "program", "project", "service", "services", "customer", "quality",
     "warehouse", "maintenance", "transport", "transportation", "logistics", "management",
 }
+#: Words that end the name of a place or an organisation ("Lantern Bay Plant", "Elm Ridge DC").
+_PLACE_WORDS = frozenset(
+    """plant depot terminal center centre dc hospital clinic office site yard warehouse store
+    street road avenue lane drive court park place square building campus branch unit facility
+    co co. company inc inc. ltd llc group services partners team department division""".split()
+)
 _TITLES = re.compile(r"^(mr|mrs|ms|miss|mx|dr|prof)\.?$", re.IGNORECASE)
 _INITIAL = re.compile(r"^[A-Z]\.$")
 _ROMAN = re.compile(r"^(II|III|IV|Jr\.?|Sr\.?)$")
@@ -189,8 +238,8 @@ def leading_name(text: str, offset: int = 0, max_tokens: int = 4) -> tuple[int, 
             tokens.append((match.start(), match.end(), word))
             continue
         if not _name_token(word) or lowered in _NOT_NAME or word.lower() in _NOT_NAME:
-            if tokens and (lowered in TITLE_HEADS or word[:1].isdigit()):
-                return None  # "Cold Store Operations Manager", "May 27": not a name
+            if tokens and (lowered in TITLE_HEADS or lowered in _PLACE_WORDS or word[:1].isdigit()):
+                return None  # "Cold Store Operations Manager", "Lantern Bay Plant", "May 27": not a name
             break
         tokens.append((match.start(), match.end(), word))
         if len(tokens) >= max_tokens:

@@ -17,7 +17,7 @@ from rapidfuzz import fuzz, process
 from rapidfuzz.distance import Levenshtein
 
 from ..schema.model import FieldHints
-from .text import find_phrase, fold
+from .text import find_phrase, fold, stem
 
 _NEGATION_BEFORE = re.compile(
     r"(?:\b(?:not|no|never|nothing to do with|isn't|wasn't|aren't|weren't|without|rather than|instead of|"
@@ -44,20 +44,6 @@ class VocabMention:
 
 
 _WORDS = re.compile(r"[^\W_]+(?:['’][^\W_]+)?")
-_SUFFIXES = ("ments", "ment", "ions", "ion", "ings", "ing", "ies", "ied", "ed", "es", "s", "e")
-
-
-def stem(word: str) -> str:
-    """A crude English stem for matching variants: two passes of suffix stripping."""
-    word = word.lower().replace("’", "'")
-    for _ in range(2):
-        for suffix in _SUFFIXES:
-            if word.endswith(suffix) and len(word) - len(suffix) >= 3:
-                word = word[: -len(suffix)]
-                break
-    return word
-
-
 class Vocabulary:
     """The variants of one field, ready to search."""
 
