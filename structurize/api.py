@@ -15,7 +15,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
-from .errors import UsageError
+from .errors import ModelMissing, UsageError
 from .extract import extract_candidates
 from .extract.ner import NerModel, NoNer, load_model
 from .options import ExtractOptions
@@ -157,13 +157,20 @@ def extract_document(
     started = time.perf_counter()
     data_hash = _sha256(path)
     doc = read_document(path, source)
-    values = process_text(doc, schema, ner if ner is not None else _ner(options), options)
+    status, reason, note = doc.status, doc.reason, doc.note
+    try:
+        values = process_text(doc, schema, ner if ner is not None else _ner(options), options)
+    except (ModelMissing, KeyboardInterrupt):
+        raise
+    except Exception as exc:  # noqa: BLE001 - an extractor bug must fail one document only
+        status, reason, note = DocStatus.FAILED, "extract_error", f"extraction failed ({type(exc).__name__})"
+        values = _unread_values(schema, reason)
     return DocumentResult(
         source=source,
         sha256=data_hash,
-        status=doc.status,
-        reason=doc.reason,
-        note=doc.note,
+        status=status,
+        reason=reason,
+        note=note,
         reader=doc.reader,
         encoding=doc.encoding,
         pages=doc.pages,
@@ -177,8 +184,7 @@ def extract_document(
 def process_text(doc: Document, schema: TargetSchema, ner: NerModel | NoNer, options: ExtractOptions) -> tuple[FieldValue, ...]:
     """Extract, resolve and validate every field of one read document."""
     if not doc.status.readable:
-        reason = f"document not read ({doc.reason or doc.status})"
-        return tuple(FieldValue(spec.name, None, 0.0, ValueStatus.MISSING, reason=reason) for spec in schema.fields)
+        return _unread_values(schema, doc.reason or str(doc.status))
     entities = ner.entities(doc.text) if doc.text.strip() else ()
     analysis, candidates = extract_candidates(doc, schema, entities)
     review_below = schema.review_below
@@ -200,6 +206,11 @@ def process_text(doc: Document, schema: TargetSchema, ner: NerModel | NoNer, opt
             item = replace(item, page=doc.page_of(item.span.start), snippet=doc.snippet(item.span, options.snippet_width))
         out.append(item)
     return tuple(out)
+
+
+def _unread_values(schema: TargetSchema, reason: str) -> tuple[FieldValue, ...]:
+    note = f"document not read ({reason})"
+    return tuple(FieldValue(spec.name, None, 0.0, ValueStatus.MISSING, reason=note) for spec in schema.fields)
 
 
 def _sha256(path: Path) -> str:

@@ -294,8 +294,13 @@ class Analysis:
 
     def person_at(self, raw: str, offset: int) -> Person | None:
         """The personal name ``raw`` starts with (``offset`` is where ``raw`` starts), if any."""
-        stripped = raw.lstrip()
-        found = leading_name(stripped, offset + len(raw) - len(stripped))
+        stripped = raw.lstrip(" \t*_")
+        start = offset + len(raw) - len(stripped)
+        initials = re.match(r"[A-Z]{2,3}\b(?!['’\w-])", stripped)
+        if initials:  # "Recorded by AO": initials of someone named in full elsewhere
+            full = self.complete_name(initials.group())
+            return Person(start, start + initials.end(), full, "role") if full else None
+        found = leading_name(stripped, start)
         if found is None or self.is_listed_value(found[2]):
             return None
         return Person(found[0], found[1], found[2], "role")
@@ -391,12 +396,8 @@ class Analysis:
 
     @cached_property
     def known_names(self) -> list[str]:
-        """Full names (two tokens or more) seen anywhere: NER, roles and labelled values."""
+        """Full names (two tokens or more) seen anywhere: NER, labelled values, capitalised runs."""
         names = [p.name for p in self.ner_people]
-        roles = self.roles
-        for person in (*roles.addressee, roles.signer, roles.principal, roles.author, *roles.copied):
-            if person is not None:
-                names.append(person.name)
         for pair in self.pairs:
             found = leading_name(self.text[pair.value_span.start : pair.value_span.end])
             if found:
@@ -405,7 +406,7 @@ class Analysis:
             found = leading_name(self.text[match.start() : match.start() + 80])
             if found and len(found[2].split()) >= 2:
                 names.append(found[2])
-        return [name for name in dict.fromkeys(names) if len(name.split()) >= 2]
+        return [name for name in dict.fromkeys(names) if len(name.split()) >= 2 and not self.is_listed_value(name)]
 
     def complete_name(self, name: str) -> str | None:
         """Expand a short name ("Carlos", "Ms. Rahman", "F. MacAllister") to the full one."""
@@ -472,9 +473,13 @@ class Analysis:
         clause_start = max(line.start, start - 60)
         before = self.text[clause_start:start]
         before = re.split(r"[.;!?]\s|--|\s[–—]\s", before)[-1] if before else before
-        if kind in ("date", "money") and _SUPERSEDED_BEFORE.search(before):
+        superseded = _SUPERSEDED_BEFORE.search(before) if kind in ("date", "money") else None
+        revised = _REVISED_BEFORE.search(before)
+        if superseded and revised:  # "was 08/04/2025, now 08/18/2025": the nearer word decides
+            return "revised" if revised.start() > superseded.start() else "superseded"
+        if superseded:
             return "superseded"
-        if _REVISED_BEFORE.search(before):
+        if revised:
             return "revised"
         if any(s <= start < e for s, e in self._revision_sections):
             return "revised"

@@ -505,14 +505,17 @@ def subject_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
                 continue
             line = an.line_of(reading.start)
             before = an.text[line.start : reading.start]
-            name_at = max(before.rfind("|"), before.rfind(":"), before.rfind("·"), -1) + 1
-            person = an.person_at(before[name_at:], line.start + name_at)
-            if person is None or len(person.name.split()) < 2:
-                continue
-            gap = an.text[person.end : reading.start]
-            if len(gap) <= 20 and not re.search(r"[.;]", gap):
-                name = Reading(person.name, person.start, person.end, 1.0)
-                yield _candidate(spec, name, "subject.v1", 0.7, (f"named next to the {other.name} {reading.value}",), an)
+            pieces = [(m.start(), m.group()) for m in re.finditer(r"[^|:·,;()\[\]]+", before)]
+            for offset, piece in reversed(pieces[-2:]):
+                tail = re.split(r"\s[-–—]\s", piece)[-1]
+                person = an.person_at(tail, line.start + offset + len(piece) - len(tail))
+                if person is None or len(person.name.split()) < 2:
+                    continue
+                gap = an.text[person.end : reading.start]
+                if len(gap) <= 20 and not re.search(r"[.;]", gap):
+                    name = Reading(person.name, person.start, person.end, 1.0)
+                    yield _candidate(spec, name, "subject.v1", 0.7, (f"named next to the {other.name} {reading.value}",), an)
+                break
 
 
 # --- pattern.v1 ------------------------------------------------------------------------------------

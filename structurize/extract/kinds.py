@@ -38,9 +38,9 @@ _PHONE = re.compile(r"(?<![\w+])(?:\+\d{1,3}[\s.-]?)?(?:\(\d{2,4}\)[\s.-]?)?\d{3
 _NUMBER = re.compile(r"(?<![\w.])[-+]?\d{1,3}(?:,\d{3})+(?:\.\d+)?(?![\w])|(?<![\w.])[-+]?\d+(?:\.\d+)?(?![\w])")
 _COMPOUND = re.compile(r"[A-Za-z0-9]+(?:[-./][A-Za-z0-9]+)*")
 _ID_SEPARATORS = re.compile(r"[-./ ]")
-_TITLE_WORD = re.compile(r"[A-Z][\w'’&-]*(?:\.(?=\w))?|[IVX]{1,4}\b|&|of|and|for|to|the|(?:\([^)]{1,30}\))")
+_TITLE_WORD = re.compile(r"[A-Z][\w'’&-]*(?:\.(?=\w))?|[IVX]{1,4}\b|&|of|and|for|the|(?:\([^)]{1,30}\))")
 _DATE_LIKE = re.compile(r"^\W*\d{1,4}[/.-]\d{1,2}")
-_TITLE_LINKS = {"of", "and", "for", "&", "to", "the"}
+_TITLE_LINKS = {"of", "and", "for", "&", "the"}
 
 
 @dataclass(frozen=True)

@@ -241,9 +241,12 @@ def leading_name(text: str, offset: int = 0, max_tokens: int = 4) -> tuple[int, 
             if tokens and (lowered in TITLE_HEADS or lowered in _PLACE_WORDS or word[:1].isdigit()):
                 return None  # "Cold Store Operations Manager", "Lantern Bay Plant", "May 27": not a name
             break
-        tokens.append((match.start(), match.end(), word))
-        if len(tokens) >= max_tokens:
+        if word.endswith(("'s", "’s")) and len(word) > 3:  # "Chloé Arsenault's team"
+            tokens.append((match.start(), match.end() - 2, word[:-2]))
             break
+        tokens.append((match.start(), match.end(), word))
+        if len(tokens) >= max_tokens or (word.endswith(".") and len(word.rstrip(".")) > 1):
+            break  # a full stop after a word ends the sentence, and the name
     while tokens and (tokens[-1][2].lower() in _PARTICLES or _INITIAL.match(tokens[-1][2])):
         tokens.pop()
     if not tokens or _all_title_words([t[2] for t in tokens]):
