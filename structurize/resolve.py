@@ -185,6 +185,7 @@ def period_candidate(spec: FieldSpec, money_value: FieldValue, money_candidates:
     period = chosen.facet("period")
     if period is None:
         return None
+    written = chosen.facet("period_from") != "context"
     canonical = None
     for probe in (period, f"per {period}", f"an {period}", f"a {period}"):
         mentions = vocabulary.find(probe, loose=False)
@@ -199,6 +200,6 @@ def period_candidate(spec: FieldSpec, money_value: FieldValue, money_candidates:
         raw=chosen.raw,
         span=chosen.span,
         extractor="companion.v1",
-        score=min(0.97, money_value.confidence * 1.05),
-        evidence=(f"pay period of {money_value.field}",),
+        score=0.92 if written else 0.75,
+        evidence=(f"pay period of {money_value.field}", "written next to the amount" if written else "named near the amount"),
     )

@@ -514,7 +514,7 @@ def subject_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
                 gap = an.text[person.end : reading.start]
                 if len(gap) <= 20 and not re.search(r"[.;]", gap):
                     name = Reading(person.name, person.start, person.end, 1.0)
-                    yield _candidate(spec, name, "subject.v1", 0.7, (f"named next to the {other.name} {reading.value}",), an)
+                    yield _candidate(spec, name, "subject.v1", 0.8, (f"named next to the {other.name} {reading.value}",), an)
                 break
 
 

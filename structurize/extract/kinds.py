@@ -181,7 +181,7 @@ def read_money(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Read
             if state:
                 flags.add(state)
             period = mention.period or label_period
-            facets = (("period", period),) if period else ()
+            facets = (("period", period), ("period_from", "amount" if mention.period else "context")) if period else ()
             if mention.currency:
                 facets += (("currency", mention.currency),)
             out.append(Reading(mention.amount, mention.start, mention.end, 1.0 if mention.currency else 0.85, frozenset(flags), facets))

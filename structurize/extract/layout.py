@@ -123,7 +123,7 @@ def _line_pairs(text: str, line: Span, index: int, lines: list[Span]) -> list[La
         if len(last.value_span) == 0:  # "Label:" alone: the value is on the next line
             value = _next_value_line(text, index, lines)
             if value is not None:
-                out[-1] = LabelPair(last.label, last.label_span, value, "next_line", 0.75)
+                out[-1] = LabelPair(last.label, last.label_span, value, "next_line", _below_strength(text, value, 0.85))
         return out
     body = text[offset:body_end].strip()
     dash = _DASH.search(text, offset, body_end)
@@ -137,8 +137,14 @@ def _line_pairs(text: str, line: Span, index: int, lines: list[Span]) -> list[La
         value = _next_value_line(text, index, lines)
         if value is not None:
             label_start, label_end = _strip_edges(text, offset, body_end)
-            return [LabelPair(norm(text[label_start:label_end].rstrip("?")), Span(label_start, label_end), value, "next_line", 0.6)]
+            strength = _below_strength(text, value, 0.8)
+            return [LabelPair(norm(text[label_start:label_end].rstrip("?")), Span(label_start, label_end), value, "next_line", strength)]
     return []
+
+
+def _below_strength(text: str, value: Span, short: float) -> float:
+    """A label above a short value is a form layout; above a paragraph, a heading."""
+    return short if len(text[value.start : value.end].split()) <= 10 else 0.6
 
 
 def _pair(text: str, current: list[object]) -> LabelPair:

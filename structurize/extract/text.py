@@ -39,31 +39,61 @@ LABEL_SYNONYMS = {
     "re-employ": "rehire", "re-employment": "rehire", "re-engage": "rehire", "re-engagement": "rehire", "reemploy": "rehire",
     "issued": "dated", "written": "dated", "present": "current", "currently": "current", "existing": "current",
     "home": "current", "destination": "new", "receiving": "new", "target": "new", "incoming": "new",
-    "future": "new", "after": "new", "post": "position", "authorised": "approved", "authorized": "approved",
-    "signed-off": "approved", "sanctioned": "approved", "workplace": "location", "depot": "site",
+    "future": "new", "after": "new", "post": "role", "position": "role", "job": "role", "title": "role",
+    "authorised": "approved", "authorized": "approved", "signed-off": "approved", "sanctioned": "approved",
+    "workplace": "location", "depot": "site", "team": "department", "division": "department",
+    "function": "department", "dept": "department",
 }
 
 
+#: Whole phrases first (common practice, no source).
+LABEL_PHRASES = {
+    "reporting line": "reports to", "line manager": "manager", "final shift": "last day", "last shift": "last day",
+    "last working day": "last day", "leaving date": "last day", "date of leaving": "last day",
+    "start in new role": "effective date", "date of change": "effective date", "spoke with": "interviewer",
+    "staff number": "employee number", "payroll number": "employee number", "personnel number": "employee number",
+}
+
+
+@lru_cache(maxsize=65536)
 def canonical_label(label: str) -> str:
-    """A label with its words mapped to the words cues use ("Remuneration" → "salary")."""
-    return " ".join(LABEL_SYNONYMS.get(word, word) for word in label.split())
+    """A label with HR synonyms mapped to the words cues use ("Remuneration" → "salary")."""
+    for phrase, replacement in LABEL_PHRASES.items():
+        if phrase in label:
+            label = re.sub(rf"\b{re.escape(phrase)}\b", replacement, label)
+    words = []
+    for word in label.split():
+        words.extend(LABEL_SYNONYMS.get(word, word).split())
+    return " ".join(words)
 
 
+@lru_cache(maxsize=65536)
 def cue_match(cue: str, label: str) -> float:
-    """See :func:`_cue_match`; a label in synonyms scores 0.9 of the same label in cue words."""
+    """How well a field cue names a label, 0..1 (both already :func:`norm`-ed).
+
+    The label is compared as written, then with its words reduced to their stems
+    ("Transferring to" / "transfer to"), then with HR synonyms mapped on both sides
+    ("Remuneration" / "salary"); the two later forms score 0.95 of a literal match.
+    """
     score = _cue_match(cue, label)
-    canonical = canonical_label(label)
-    if canonical != label:
-        score = max(score, 0.9 * _cue_match(cue, canonical))
+    variants = [(canonical_label(cue), canonical_label(label))]
+    if " " in cue and " " in label:  # stems only for phrases: "requested" is not "request"
+        variants.append((_stems(cue), _stems(label)))
+    for variant_cue, variant_label in variants:
+        if (variant_cue, variant_label) != (cue, label):
+            score = max(score, 0.95 * _cue_match(variant_cue, variant_label))
     return score
 
 
-def _cue_match(cue: str, label: str) -> float:
-    """How well a field cue names a label, 0..1.  Both are already :func:`norm`-ed.
+def _stems(phrase: str) -> str:
+    return " ".join(stem(word) if word.isalpha() and len(word) > 3 else word for word in phrase.split())
 
-    Exact equality scores 1.  A cue that appears as whole words inside the label scores by
-    how much of the label it covers.  A small misspelling of the whole label (one edit in a
-    short label, two in a long one) still scores well.
+
+def _cue_match(cue: str, label: str) -> float:
+    """Exact equality scores 1.  A cue inside the label scores by how much of the label's
+    content words it covers; a shortened label that starts the cue, the cue's words in
+    another order, or the same distinguishing first word score less.  A small misspelling
+    of the whole label (one edit in a short label, two in a long one) still scores well.
     """
     if not cue or not label:
         return 0.0
@@ -71,16 +101,17 @@ def _cue_match(cue: str, label: str) -> float:
         return 1.0
     label_words = label.split()
     cue_words = cue.split()
+    content = [word for word in label_words if word not in _PREPOSITIONS] or label_words
     score = 0.0
     if _contains_words(label_words, cue_words):
-        coverage = len(cue_words) / len(label_words)
+        coverage = min(1.0, len([w for w in cue_words if w not in _PREPOSITIONS] or cue_words) / len(content))
         score = (0.8 + 0.2 * coverage) if len(cue_words) > 1 else (0.6 + 0.3 * coverage)
     elif len(label_words) < len(cue_words) and cue_words[: len(label_words)] == label_words:
         # a shortened label: "Current:" for the cue "current site"
-        score = 0.5 + 0.25 * len(label_words) / len(cue_words)
+        score = 0.55 + 0.3 * len(label_words) / len(cue_words)
     elif len(cue_words) >= 2 and set(cue_words) <= set(label_words):
-        # the cue's words in another order: "Role after move" for "new role" (via synonyms)
-        score = 0.75 + 0.15 * len(cue_words) / len(label_words)
+        # the cue's words in another order: "Name of employee" for "employee name"
+        score = 0.8 + 0.15 * len(cue_words) / len(content)
     elif (
         len(label_words) >= 2 <= len(cue_words)
         and label_words[0] == cue_words[0]
