@@ -51,7 +51,9 @@ _AUTHOR_CUE = re.compile(r"^(?:i|we)\b|^from$", re.IGNORECASE)
 _AGENT_CUE = re.compile(r"\w+(?:ed|en)\s+by$", re.IGNORECASE)
 _FIRST_PERSON_CLAUSE = re.compile(r"(?:^|[\s(])I(?:'d|'m| would| am| wish| want| hereby)?\s+(?:\w+\s+){0,4}$")
 #: Single-word cues too common in running text to anchor a value there (labels only).
-_LABEL_ONLY_CUES = {"to", "from", "by", "for", "at", "on", "in", "of", "with", "re", "cc", "id", "no", "date", "name", "current", "new"}
+_LABEL_ONLY_CUES = {
+    "to", "from", "by", "for", "at", "on", "in", "of", "with", "per", "as", "re", "cc", "id", "no", "date", "name", "current", "new",
+}
 _ADDRESSEE_CUE = {"dear", "to", "candidate", "addressee", "recipient", "attention", "attn"}
 
 
@@ -206,7 +208,9 @@ def prose_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             continue
         found = False
         for reading, distance in _prose_readings(an, spec, hit.start, hit.end, limit):
-            decay = max(0.45, 1.0 - distance / 200)
+            if reading.value is None and "stated_missing" in reading.flags and not re.search(r"[A-Za-z]", an.text[reading.start : reading.end]):
+                continue  # a blank to fill in ("dated ______") is not a statement that the value is unknown
+            decay = max(0.45, 1.0 - max(0, distance - 30) / 250)
             if "first_person" in reading.flags and reading.value is None:
                 resolved = _resolve_first_person(an, spec, reading)
                 if resolved is None:

@@ -33,6 +33,12 @@ _PENDING = re.compile(
     r"\b(?:pending|awaiting|not yet (?:approved|signed|given|received)|to be (?:signed|approved|confirmed)|tbc|tbd|outstanding)\b",
     re.IGNORECASE,
 )
+#: Words that mark an amount as some other payment than the one a money field asks for.
+_MONEY_EXTRA = re.compile(
+    r"\b(?:bonus(?:es)?|premiums?|differentials?|allowances?|stipends?|sign-on|signing|relocation|reimburse\w*|"
+    r"additional|extra|overtime|incentives?|commissions?|fees?|expenses|per diem|uplift|on-call|one-off|lump sum)\b",
+    re.IGNORECASE,
+)
 _EMAIL = re.compile(r"(?<![\w.+-])[\w.+-]+@[\w-]+(?:\.[\w-]+)+(?![\w-])")
 _PHONE = re.compile(r"(?<![\w+])(?:\+\d{1,3}[\s.-]?)?(?:\(\d{2,4}\)[\s.-]?)?\d{3}[\s.-]\d{4}(?:[\s.-]\d{2,4})?(?!\d)|(?<![\w+])\d{3}[\s.-]\d{3}[\s.-]\d{4}(?!\d)")
 _NUMBER = re.compile(r"(?<![\w.])[-+]?\d{1,3}(?:,\d{3})+(?:\.\d+)?(?![\w])|(?<![\w.])[-+]?\d+(?:\.\d+)?(?![\w])")
@@ -174,9 +180,19 @@ def read_date(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Readi
 def read_money(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
     out = []
     label_period = period_in(an.text[max(0, start - 40) : start])
+    cue_words = {word for cue in spec.hints.cues for word in cue.lower().split()}
     for mention in an.money:
         if start <= mention.start < end:
             flags = set()
+            quality = 1.0 if mention.currency else 0.85
+            line = an.line_of(mention.start)
+            before = re.split(r"[.;!?]\s|\|", an.text[max(line.start, mention.start - 45) : mention.start])[-1]
+            after = re.split(r"[.;!?,]\s|\|", an.text[mention.end : min(line.end, mention.end + 25)])[0]
+            context = before + " " + after
+            extra = {m.group().lower() for m in _MONEY_EXTRA.finditer(context)} - cue_words
+            if extra:  # "a $600 tool allowance", "an additional $1.00/hr": not the amount asked for
+                flags.add("other_payment")
+                quality *= 0.35
             state = an.revision(mention.start, kind="money")
             if state:
                 flags.add(state)
@@ -184,7 +200,7 @@ def read_money(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Read
             facets = (("period", period), ("period_from", "amount" if mention.period else "context")) if period else ()
             if mention.currency:
                 facets += (("currency", mention.currency),)
-            out.append(Reading(mention.amount, mention.start, mention.end, 1.0 if mention.currency else 0.85, frozenset(flags), facets))
+            out.append(Reading(mention.amount, mention.start, mention.end, quality, frozenset(flags), facets))
     return out or _missing_list(an, start, end)
 
 

@@ -104,7 +104,9 @@ def _cue_match(cue: str, label: str) -> float:
     content = [word for word in label_words if word not in _PREPOSITIONS] or label_words
     score = 0.0
     if _contains_words(label_words, cue_words):
-        coverage = min(1.0, len([w for w in cue_words if w not in _PREPOSITIONS] or cue_words) / len(content))
+        cue_content = [w for w in cue_words if w not in _PREPOSITIONS]
+        # "Reports to" is about reporting, not about "to": a function-word cue covers little
+        coverage = min(1.0, len(cue_content) / len(content)) if cue_content else len(cue_words) / len(label_words)
         score = (0.8 + 0.2 * coverage) if len(cue_words) > 1 else (0.6 + 0.3 * coverage)
     elif len(label_words) < len(cue_words) and cue_words[: len(label_words)] == label_words:
         # a shortened label: "Current:" for the cue "current site"
