@@ -8,7 +8,6 @@
 
 from __future__ import annotations
 
-import hashlib
 import time
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field, replace
@@ -101,6 +100,13 @@ class ExtractionResult:
         values = pd.DataFrame(self.values())
         return table, values
 
+    def status_counts(self) -> dict[str, int]:
+        """Documents per status, in the order of :class:`DocStatus`."""
+        counts = {str(status): 0 for status in DocStatus}
+        for doc in self.documents:
+            counts[str(doc.status)] += 1
+        return {status: n for status, n in counts.items() if n}
+
     def counts(self) -> dict[str, int]:
         """Documents read and failed; values by status."""
         counts = {"documents": len(self.documents), "read": 0, "not_read": 0}
@@ -138,7 +144,8 @@ def discover(root: Path) -> Iterator[tuple[Path, str]]:
 # --- one document ---------------------------------------------------------------------------
 
 
-def _ner(options: ExtractOptions) -> NerModel | NoNer:
+def ner_for(options: ExtractOptions) -> NerModel | NoNer:
+    """The NER pipeline the options ask for (loaded once per process), or none."""
     return load_model(options.ner) if options.ner else NoNer()
 
 
@@ -155,11 +162,10 @@ def extract_document(
     path = Path(path)
     source = source or path.name
     started = time.perf_counter()
-    data_hash = _sha256(path)
-    doc = read_document(path, source)
+    doc = read_document(path, source, options)
     status, reason, note = doc.status, doc.reason, doc.note
     try:
-        values = process_text(doc, schema, ner if ner is not None else _ner(options), options)
+        values = process_text(doc, schema, ner if ner is not None else ner_for(options), options)
     except (ModelMissing, KeyboardInterrupt):
         raise
     except Exception as exc:  # noqa: BLE001 - an extractor bug must fail one document only
@@ -167,7 +173,7 @@ def extract_document(
         values = _unread_values(schema, reason)
     return DocumentResult(
         source=source,
-        sha256=data_hash,
+        sha256=doc.sha256,
         status=status,
         reason=reason,
         note=note,
@@ -213,17 +219,6 @@ def _unread_values(schema: TargetSchema, reason: str) -> tuple[FieldValue, ...]:
     return tuple(FieldValue(spec.name, None, 0.0, ValueStatus.MISSING, reason=note) for spec in schema.fields)
 
 
-def _sha256(path: Path) -> str:
-    digest = hashlib.sha256()
-    try:
-        with path.open("rb") as handle:
-            for block in iter(lambda: handle.read(1 << 20), b""):
-                digest.update(block)
-    except OSError:
-        return ""
-    return digest.hexdigest()
-
-
 # --- a folder --------------------------------------------------------------------------------
 
 
@@ -239,20 +234,37 @@ def extract_folder(
     root = Path(input_path)
     if not root.exists():
         raise UsageError(f"input not found: {root}")
+    options = options.for_schema(schema.time_limit, schema.memory_limit)
     started = time.perf_counter()
-    ner = _ner(options)
-    results = []
-    for path, source in discover(root):
-        results.append(extract_document(path, schema, source=source, options=options, ner=ner))
-        if progress is not None:
-            progress(source)
+    tasks = list(discover(root))
+    results: list[DocumentResult] = []
+    if options.workers == 0:
+        ner = ner_for(options)
+        for path, source in tasks:
+            results.append(extract_document(path, schema, source=source, options=options, ner=ner))
+            if progress is not None:
+                progress(source)
+    else:
+        from .workers import run_documents
+
+        for result in run_documents(tasks, schema, options):
+            results.append(result)
+            if progress is not None:
+                progress(result.source)
+    results.sort(key=lambda result: result.source)
     results = flag_unusual_gaps(schema, check_unique(schema, results))
     return ExtractionResult(
         schema=schema,
         documents=tuple(results),
         input_root=str(root),
         seconds=time.perf_counter() - started,
-        settings={"ner": options.ner or "off", "review_below": schema.review_below},
+        settings={
+            "ner": options.ner or "off",
+            "review_below": schema.review_below,
+            "workers": options.workers if options.workers is not None else "auto",
+            "time_limit": options.limits.seconds,
+            "memory_limit": options.limits.memory_mb,
+        },
     )
 
 

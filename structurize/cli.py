@@ -6,6 +6,7 @@ finished but some documents could not be read.
 
 from __future__ import annotations
 
+import os
 import sys
 import time
 from pathlib import Path
@@ -16,13 +17,22 @@ from rich.console import Console
 
 from . import api
 from .errors import StructurizeError, UsageError
-from .options import ExtractOptions
+from .options import PASSWORD_ENV, ExtractOptions
+from .types import DocStatus
 from .schema import load_schema
 from .score import score_path
 from .write import write_outputs
 
 EXIT_OK, EXIT_FAILURE, EXIT_USAGE, EXIT_DOCUMENTS_FAILED = 0, 1, 2, 3
 PROGRESS_AFTER_SECONDS = 1.0
+#: Short texts for reason codes whose reader gave no note of its own.
+NOTES = {
+    "no_text_layer": "no text layer (a scanned image?); run with --ocr, which needs tesseract-ocr",
+    "suspect_empty": "the pages decode to no text at all",
+    "stream_data_loss": "part of the file is damaged; what could be read was used",
+    "unsupported_format": "not a format structurize reads",
+    "partial": "read in part; see the warnings in documents.csv",
+}
 
 app = typer.Typer(
     name="structurize",
@@ -56,10 +66,23 @@ def extract_command(
     quiet: QuietOpt = False,
     no_ner: Annotated[bool, typer.Option("--no-ner", help="Rules only: do not load the NER pipeline.")] = False,
     plain_csv: Annotated[bool, typer.Option("--plain-csv", help="Write CSV without the UTF-8 byte-order mark Excel needs.")] = False,
+    workers: Annotated[Optional[int], typer.Option("--workers", min=0, help="Worker processes (default: the cores, at most 4; 0: no isolation).")] = None,
+    time_limit: Annotated[Optional[float], typer.Option("--time-limit", min=0.1, max=3600, help="Seconds allowed per document (default 60, or the schema's extract.time_limit).")] = None,
+    memory_limit: Annotated[Optional[int], typer.Option("--memory-limit", min=256, max=65536, help="Megabytes allowed per worker (default 1536, or the schema's extract.memory_limit).")] = None,
+    password_file: Annotated[Optional[Path], typer.Option("--pdf-password-file", help=f"File holding the password for encrypted PDFs (or set {PASSWORD_ENV}).")] = None,
+    ocr: Annotated[bool, typer.Option("--ocr", help="Read scanned PDF pages with Tesseract (tesseract-ocr must be installed).")] = False,
 ) -> None:
     """Extract every schema field from every document under INPUT into OUT."""
-    options = ExtractOptions(ner=None if no_ner else ExtractOptions.ner, csv_bom=not plain_csv)
     try:
+        options = ExtractOptions(
+            ner=None if no_ner else ExtractOptions.ner,
+            csv_bom=not plain_csv,
+            workers=min(workers, (os.cpu_count() or 1) * 2) if workers is not None else None,
+            time_limit=time_limit,
+            memory_limit=memory_limit,
+            pdf_password=_password(password_file),
+            ocr=ocr,
+        )
         jobs = _jobs(input_path, schema, output)
         failed = 0
         for folder, schema_file, out_dir in jobs:
@@ -68,6 +91,16 @@ def extract_command(
         raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None
     if failed:
         raise typer.Exit(EXIT_DOCUMENTS_FAILED)
+
+
+def _password(path: Path | None) -> str | None:
+    """The PDF password from a file or the environment; never from the command line."""
+    if path is not None:
+        try:
+            return path.read_text(encoding="utf-8").strip("\r\n")
+        except OSError as exc:
+            raise UsageError(f"{_escape(str(path))}: cannot read the password file ({exc.strerror or exc})") from None
+    return os.environ.get(PASSWORD_ENV) or None
 
 
 def _jobs(input_path: Path, schema: Path, output: Path) -> list[tuple[Path, Path, Path]]:
@@ -119,13 +152,16 @@ def _run_one(folder: Path, schema_file: Path, out_dir: Path, options: ExtractOpt
             progress.stop()
     paths = write_outputs(result, out_dir, bom=options.csv_bom)
     failed = [doc for doc in result.documents if not doc.status.readable]
-    for doc in failed:
-        note = doc.note or doc.status.value.replace("_", " ")
+    for doc in result.documents:
+        if doc.status is DocStatus.OK:
+            continue
+        note = doc.note or NOTES.get(doc.reason or str(doc.status), doc.status.value.replace("_", " "))
         err.print(f"structurize: {_escape(doc.source)}: {doc.reason or doc.status}: {note}", markup=False)
     if not quiet:
         counts = result.counts()
+        statuses = ", ".join(f"{n} {status}" for status, n in result.status_counts().items())
         out.print(
-            f"{target.name}: {counts['read']} documents read, {counts['not_read']} not read; values: "
+            f"{target.name}: {counts['documents']} documents ({statuses}); values: "
             f"{counts['ok']} ok, {counts['review']} to review, {counts['missing']} missing, {counts['invalid']} invalid; "
             f"outputs in {paths['table'].parent}",
             markup=False,

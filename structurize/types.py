@@ -130,6 +130,7 @@ class Document:
     reason: str = ""  #: reason code when ``status`` is not ok
     note: str = ""  #: short human text for the reason; never document content
     warnings: tuple[str, ...] = ()
+    sha256: str = ""  #: of the file's bytes: the document's identity
 
     @property
     def pages(self) -> int | None:

@@ -1,6 +1,7 @@
 """Readers: one per file format, each returning a :class:`~structurize.types.Document`.
 
-A reader is a callable ``(path, source) -> Document``.  It raises
+A reader is a callable ``(path, source, options) -> Document``; ``options`` carries the
+limits, the PDF password, the fallback encodings and whether to OCR.  It raises
 :class:`~structurize.errors.ReadFailure` for a document it cannot read; :func:`read_document`
 turns that (and any other exception) into a document with a status and a reason code, so
 that one bad file never stops a batch.
@@ -8,14 +9,17 @@ that one bad file never stops a batch.
 
 from __future__ import annotations
 
+import hashlib
 from collections.abc import Callable
+from dataclasses import replace
 from pathlib import Path
 
 from ..errors import ReadFailure
+from ..options import ExtractOptions
 from ..registry import Registry
 from ..types import Document, DocStatus
 
-Reader = Callable[[Path, str], Document]
+Reader = Callable[[Path, str, ExtractOptions], Document]
 
 #: name → reader; names look like ``reader.pdf.v1``.
 READERS: Registry[Reader] = Registry("reader", "structurize.readers")
@@ -34,14 +38,32 @@ def reader_for(path: Path) -> str | None:
     return SUFFIXES.get(path.suffix.lower())
 
 
-def read_document(path: Path, source: str) -> Document:
+def read_document(path: Path, source: str, options: ExtractOptions | None = None) -> Document:
     """Read one file.  Never raises for a bad document: the status says what went wrong."""
+    options = options or ExtractOptions()
     name = reader_for(path)
+    digest = file_sha256(path)
     if name is None:
-        return _failed(source, "", DocStatus.FAILED, "unsupported_format", "")
+        return replace(_failed(source, "", DocStatus.FAILED, "unsupported_format", ""), sha256=digest)
+    return replace(_read(path, source, options, name), sha256=digest)
+
+
+def file_sha256(path: Path) -> str:
+    """SHA-256 of a file's bytes, read in blocks ("" when it cannot be read)."""
+    digest = hashlib.sha256()
+    try:
+        with path.open("rb") as handle:
+            for block in iter(lambda: handle.read(1 << 20), b""):
+                digest.update(block)
+    except OSError:
+        return ""
+    return digest.hexdigest()
+
+
+def _read(path: Path, source: str, options: ExtractOptions, name: str) -> Document:
     reader = READERS.get(name)
     try:
-        return reader(path, source)
+        return reader(path, source, options)
     except ReadFailure as failure:
         return _failed(source, name, DocStatus(failure.status), failure.code, failure.detail)
     except MemoryError:

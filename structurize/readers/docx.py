@@ -6,6 +6,7 @@ import zipfile
 from pathlib import Path
 
 from ..errors import ReadFailure
+from ..options import ExtractOptions
 from ..types import Document
 from .builder import TextBuilder
 
@@ -21,7 +22,7 @@ def _ticks(text: str) -> str:
     return text
 
 
-def read_docx(path: Path, source: str) -> Document:
+def read_docx(path: Path, source: str, options: ExtractOptions) -> Document:
     head = path.read_bytes()[:8]
     if head == OLE_MAGIC:
         raise ReadFailure("needs_password", "encrypted_office", "password-protected or legacy Office file")

@@ -10,6 +10,7 @@ from __future__ import annotations
 from html.parser import HTMLParser
 from pathlib import Path
 
+from ..options import ExtractOptions
 from ..types import Document
 from .builder import TextBuilder
 from .decode import decode_bytes
@@ -148,8 +149,8 @@ def html_to_builder(html: str, builder: TextBuilder) -> None:
     converter.close()
 
 
-def read_html(path: Path, source: str) -> Document:
-    decoded = decode_bytes(path.read_bytes())
+def read_html(path: Path, source: str, options: ExtractOptions) -> Document:
+    decoded = decode_bytes(path.read_bytes(), options.encodings)
     builder = TextBuilder()
     html_to_builder(decoded.text, builder)
     return builder.build(

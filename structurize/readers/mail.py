@@ -21,6 +21,7 @@ from email.message import EmailMessage
 from pathlib import Path
 
 from ..errors import ReadFailure
+from ..options import ExtractOptions
 from ..types import Address, Document, Header, Region, Span
 from .builder import TextBuilder
 from .html import html_to_builder
@@ -36,7 +37,7 @@ _OUTLOOK_FROM = re.compile(r"^\s*From:\s+\S")
 _OUTLOOK_NEXT = re.compile(r"^\s*(Sent|Date|To|Subject):\s", re.IGNORECASE)
 
 
-def read_email(path: Path, source: str) -> Document:
+def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
     raw = path.read_bytes()
     if not raw.strip():
         raise ReadFailure("failed", "empty_file", "the file is empty")

@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import ReadFailure
+from ..options import ExtractOptions
 from ..types import Document, DocStatus
 from .builder import TextBuilder
 
@@ -38,7 +39,8 @@ class _LossCollector(logging.Handler):
             self.warnings.add("circular_xobject")
 
 
-def read_pdf(path: Path, source: str, password: str | None = None) -> Document:
+def read_pdf(path: Path, source: str, options: ExtractOptions) -> Document:
+    password = options.pdf_password
     import pdfplumber  # lazy: pdfminer is slow to import
 
     if path.stat().st_size == 0:

@@ -5,6 +5,7 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
+from ..options import ExtractOptions
 from ..types import Document, Span, Table
 from .builder import TextBuilder
 from .decode import decode_bytes
@@ -12,16 +13,16 @@ from .decode import decode_bytes
 _TABLE_RULE = re.compile(r"^\s*\|?\s*:?-{2,}:?\s*(\|\s*:?-{2,}:?\s*)*\|?\s*$")
 
 
-def read_text(path: Path, source: str) -> Document:
-    return _read(path, source, reader="reader.text.v1", markdown=False)
+def read_text(path: Path, source: str, options: ExtractOptions) -> Document:
+    return _read(path, source, options, reader="reader.text.v1", markdown=False)
 
 
-def read_markdown(path: Path, source: str) -> Document:
-    return _read(path, source, reader="reader.markdown.v1", markdown=True)
+def read_markdown(path: Path, source: str, options: ExtractOptions) -> Document:
+    return _read(path, source, options, reader="reader.markdown.v1", markdown=True)
 
 
-def _read(path: Path, source: str, *, reader: str, markdown: bool) -> Document:
-    decoded = decode_bytes(path.read_bytes())
+def _read(path: Path, source: str, options: ExtractOptions, *, reader: str, markdown: bool) -> Document:
+    decoded = decode_bytes(path.read_bytes(), options.encodings)
     builder = TextBuilder()
     builder.add_text(decoded.text)
     doc = builder.build(

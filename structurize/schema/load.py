@@ -34,7 +34,7 @@ MAX_SCHEMA_BYTES = 1_000_000
 MAX_EXPANDED_NODES = 100_000
 
 FIELD_EXTRACT_KEYS = ("as", "cues", "aliases", "pattern", "fuzzy_distance")
-SCHEMA_EXTRACT_KEYS = ("date_order", "review_below", "fuzzy_distance")
+SCHEMA_EXTRACT_KEYS = ("date_order", "review_below", "fuzzy_distance", "time_limit", "memory_limit")
 CONSTRAINT_KEYS = (
     "required",
     "unique",
@@ -266,6 +266,12 @@ class _Checker:
         if isinstance(review_below, bool) or not isinstance(review_below, (int, float)) or not 0 <= review_below <= 1:
             raise self.fail(("extract", "review_below"), "must be a number between 0 and 1")
         fuzzy = self.fuzzy(top.get("fuzzy_distance", DEFAULT_FUZZY_DISTANCE), ("extract", "fuzzy_distance"))
+        time_limit = top.get("time_limit")
+        if time_limit is not None and (isinstance(time_limit, bool) or not isinstance(time_limit, (int, float)) or not 0 < time_limit <= 3600):
+            raise self.fail(("extract", "time_limit"), "must be a number of seconds, above 0 and at most 3600")
+        memory_limit = top.get("memory_limit")
+        if memory_limit is not None and (isinstance(memory_limit, bool) or not isinstance(memory_limit, int) or not 256 <= memory_limit <= 65536):
+            raise self.fail(("extract", "memory_limit"), "must be a whole number of megabytes from 256 to 65536")
         missing = self.strings(data.get("missingValues", [""]), ("missingValues",), allow_single=False) if data.get("missingValues") else ("",)
 
         fields: list[FieldSpec] = []
@@ -299,6 +305,8 @@ class _Checker:
             description=str(data.get("description") or ""),
             date_order=date_order,
             review_below=float(review_below),
+            time_limit=float(time_limit) if time_limit is not None else None,
+            memory_limit=memory_limit,
             missing_values=missing,
             primary_key=tuple(primary),
             descriptor=data,

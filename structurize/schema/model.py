@@ -91,6 +91,8 @@ class TargetSchema:
     description: str = ""
     date_order: str | None = None
     review_below: float = DEFAULT_REVIEW_BELOW
+    time_limit: float | None = None  #: seconds per document (``extract.time_limit``)
+    memory_limit: int | None = None  #: megabytes per worker (``extract.memory_limit``)
     missing_values: tuple[str, ...] = ("",)
     primary_key: tuple[str, ...] = ()
     descriptor: dict[str, Any] = field(default_factory=dict)

@@ -1,0 +1,291 @@
+"""Worker processes: every document is read and extracted in a process that can be killed.
+
+A long C call (zlib, lxml, pdfminer's layout) cannot be interrupted by a signal handler or
+a thread, so the only reliable bound on time is to kill the process doing it.  Each worker
+caps its own address space (``RLIMIT_AS``) when it starts, loads the NER pipeline once,
+then takes one document at a time.  The parent keeps a deadline per document:
+
+* past the deadline the worker is killed: the document is ``failed: timeout``;
+* a worker that dies (a crash, the kernel's OOM killer) fails only its document:
+  ``failed: worker_crash`` (or ``memory_limit`` when it ran out of memory);
+* a fresh worker takes its place and the batch goes on.
+
+Results come back in the order documents finish; :func:`run_documents` yields them so
+that the caller can write progress (and, later, its store) as it goes.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import multiprocessing
+import os
+import signal
+import sys
+import time
+from collections import deque
+from collections.abc import Callable, Iterable, Iterator
+from dataclasses import dataclass
+from multiprocessing.connection import Connection, wait
+from pathlib import Path
+from typing import Any
+
+from .errors import ModelMissing, StructurizeError
+from .options import ExtractOptions, default_workers
+from .schema import TargetSchema
+from .types import DocStatus, DocumentResult, FieldValue, ValueStatus
+
+Task = tuple[Path, str]
+#: Seconds a worker may take to start (import and load the NER pipeline).
+START_SECONDS = 120.0
+
+
+def _context() -> multiprocessing.context.BaseContext:
+    methods = multiprocessing.get_all_start_methods()
+    if "forkserver" in methods:
+        context = multiprocessing.get_context("forkserver")
+        context.set_forkserver_preload(["structurize.api"])
+        return context
+    return multiprocessing.get_context("spawn")
+
+
+@contextlib.contextmanager
+def _main_module_hidden() -> Iterator[None]:
+    """Start workers without re-running the caller's script in them.
+
+    ``spawn`` and ``forkserver`` re-import the ``__main__`` module in each child unless it
+    has no file; workers need nothing from it (tasks hold only structurize types), and a
+    script without an ``if __name__ == "__main__"`` guard would otherwise start its work
+    again in every worker.
+    """
+    main = sys.modules.get("__main__")
+    if main is None:
+        yield
+        return
+    had_file = hasattr(main, "__file__")
+    saved_file = getattr(main, "__file__", None)
+    saved_spec = getattr(main, "__spec__", None)
+    try:
+        if had_file:
+            del main.__file__
+        main.__spec__ = None
+        yield
+    finally:
+        if had_file:
+            main.__file__ = saved_file
+        main.__spec__ = saved_spec
+
+
+def failed_result(schema: TargetSchema, source: str, reason: str, note: str, seconds: float = 0.0) -> DocumentResult:
+    """The result for a document whose worker did not come back."""
+    values = tuple(
+        FieldValue(spec.name, None, 0.0, ValueStatus.MISSING, reason=f"document not read ({reason})") for spec in schema.fields
+    )
+    return DocumentResult(source=source, sha256="", status=DocStatus.FAILED, reason=reason, note=note, seconds=seconds, values=values)
+
+
+def _limit_memory(megabytes: int) -> None:
+    try:
+        import resource
+    except ImportError:  # not POSIX: no address-space limit (documented)
+        return
+    limit = megabytes * 1024 * 1024
+    try:
+        resource.setrlimit(resource.RLIMIT_AS, (limit, limit))
+    except (ValueError, OSError):
+        pass
+
+
+def _test_fault(source: str) -> None:
+    """Test-only fault injection, active only when STRUCTURIZE_FAULT_INJECTION=1.
+
+    ``STRUCTURIZE_FAULT=<kind>:<document>`` with kind ``hang``, ``crash`` (SIGSEGV),
+    ``exit`` or ``memory``.
+    """
+    if os.environ.get("STRUCTURIZE_FAULT_INJECTION") != "1":
+        return
+    kind, _, target = os.environ.get("STRUCTURIZE_FAULT", "").partition(":")
+    if target != source:
+        return
+    if kind == "hang":
+        time.sleep(3600)
+    elif kind == "crash":
+        os.kill(os.getpid(), signal.SIGSEGV)
+    elif kind == "exit":
+        os._exit(7)
+    elif kind == "memory":
+        hog = [bytearray(64 * 1024 * 1024) for _ in range(10_000)]
+        del hog
+
+
+def _worker_main(conn: Connection, schema: TargetSchema, options: ExtractOptions) -> None:
+    """Runs in the worker process: limits, one model load, then documents until told to stop."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent decides when workers stop
+    os.environ.setdefault("OMP_THREAD_LIMIT", "1")  # one thread per worker (Tesseract, BLAS)
+    _limit_memory(options.limits.memory_mb)
+    from . import api
+
+    try:
+        ner = api.ner_for(options)
+    except ModelMissing as exc:
+        conn.send(("fatal", str(exc)))
+        return
+    conn.send(("ready", None))
+    while True:
+        try:
+            message = conn.recv()
+        except EOFError:
+            return
+        if message is None:
+            return
+        path, source = message
+        try:
+            _test_fault(source)
+            result = api.extract_document(path, schema, source=source, options=options, ner=ner)
+        except MemoryError:
+            result = failed_result(schema, source, "memory_limit", "the document needs more memory than the limit")
+        conn.send(("done", result))
+
+
+@dataclass
+class _Worker:
+    process: Any
+    conn: Connection
+    task: Task | None = None
+    started: float = 0.0
+    ready: bool = False
+    broken: bool = False
+
+
+class WorkerError(StructurizeError):
+    """A worker could not start (the NER pipeline is missing, for example)."""
+
+
+class _Pool:
+    def __init__(self, schema: TargetSchema, options: ExtractOptions, size: int) -> None:
+        self.schema = schema
+        self.options = options
+        self.size = size
+        self.context = _context()
+        self.workers: list[_Worker] = []
+
+    def start(self) -> _Worker:
+        parent, child = self.context.Pipe()
+        process = self.context.Process(target=_worker_main, args=(child, self.schema, self.options), daemon=True)
+        with _main_module_hidden():
+            process.start()
+        child.close()
+        worker = _Worker(process, parent, started=time.monotonic())
+        self.workers.append(worker)
+        return worker
+
+    def retire(self, worker: _Worker, *, kill: bool) -> None:
+        if kill and worker.process.is_alive():
+            worker.process.kill()
+        worker.process.join(timeout=5)
+        worker.conn.close()
+        self.workers.remove(worker)
+
+    def close(self) -> None:
+        for worker in list(self.workers):
+            try:
+                worker.conn.send(None)
+            except (OSError, BrokenPipeError):
+                pass
+        deadline = time.monotonic() + 5
+        for worker in list(self.workers):
+            worker.process.join(timeout=max(0.1, deadline - time.monotonic()))
+            self.retire(worker, kill=True)
+
+
+def _crash_reason(exitcode: int | None) -> tuple[str, str]:
+    if exitcode is not None and exitcode < 0:
+        name = signal.Signals(-exitcode).name if -exitcode in signal.valid_signals() else str(-exitcode)
+        if -exitcode == signal.SIGKILL:
+            return "memory_limit", "the worker was killed (out of memory?)"
+        return "worker_crash", f"the worker crashed ({name})"
+    return "worker_crash", f"the worker exited ({exitcode})"
+
+
+def run_documents(
+    tasks: Iterable[Task],
+    schema: TargetSchema,
+    options: ExtractOptions,
+    *,
+    on_result: Callable[[DocumentResult], None] | None = None,
+) -> Iterator[DocumentResult]:
+    """Extract every task in worker processes; yield each result as it finishes."""
+    queue: deque[Task] = deque(tasks)
+    if not queue:
+        return
+    size = min(options.workers or default_workers(), len(queue))
+    pool = _Pool(schema, options, size)
+    limit = options.limits.seconds
+    startup_failures = 0
+    try:
+        for _ in range(size):
+            pool.start()
+        while queue or any(w.task is not None for w in pool.workers):
+            now = time.monotonic()
+            for worker in pool.workers:
+                if worker.ready and worker.task is None and queue:
+                    worker.task = queue.popleft()
+                    worker.started = now
+                    worker.conn.send(worker.task)
+            waiting = {w.conn: w for w in pool.workers}
+            sentinels = {w.process.sentinel: w for w in pool.workers}
+            deadlines = [
+                w.started + (limit if w.ready else START_SECONDS) for w in pool.workers if w.task is not None or not w.ready
+            ]
+            timeout = max(0.0, min(deadlines) - now) if deadlines else None
+            ready = wait([*waiting, *sentinels], timeout=timeout)
+            finished: list[tuple[_Worker, DocumentResult | None]] = []
+            for item in ready:
+                if item in waiting:
+                    worker = waiting[item]
+                    try:
+                        kind, payload = worker.conn.recv()
+                    except (EOFError, OSError):
+                        worker.broken = True  # it died; its exit code tells how
+                        worker.process.join(timeout=2)
+                        continue
+                    if kind == "fatal":
+                        raise ModelMissing(payload)
+                    if kind == "ready":
+                        worker.ready = True
+                    elif kind == "done":
+                        finished.append((worker, payload))
+            for worker, result in finished:
+                worker.task = None
+                assert result is not None
+                if on_result:
+                    on_result(result)
+                yield result
+            now = time.monotonic()
+            for worker in list(pool.workers):
+                dead = worker.broken or not worker.process.is_alive()
+                late = worker.task is not None and now - worker.started > limit
+                stuck = not worker.ready and now - worker.started > START_SECONDS
+                if not (dead or late or stuck):
+                    continue
+                task = worker.task
+                exitcode = worker.process.exitcode
+                was_ready = worker.ready
+                pool.retire(worker, kill=True)
+                if not was_ready:
+                    startup_failures += 1
+                    if startup_failures >= 3:
+                        raise WorkerError("worker processes cannot start (is the memory limit too low?)")
+                if task is not None:
+                    path, source = task
+                    if late and not dead:
+                        reason, note = "timeout", f"reading took longer than {limit:g} s"
+                    else:
+                        reason, note = _crash_reason(exitcode)
+                    result = failed_result(schema, source, reason, note, seconds=now - worker.started)
+                    if on_result:
+                        on_result(result)
+                    yield result
+                if queue:
+                    pool.start()
+    finally:
+        pool.close()
