@@ -13,7 +13,7 @@ from .score import score_path
 from .types import Candidate, DocStatus, DocumentResult, FieldValue, Span, ValueStatus
 from .write import write_outputs
 
-__version__ = "0.1.0"
+from .version import __version__
 
 __all__ = [
     "Candidate",

@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import ModelMissing, UsageError
+from .store import Store
 from .extract import extract_candidates
 from .extract.ner import NerModel, NoNer, load_model
 from .options import ExtractOptions
@@ -228,8 +229,17 @@ def extract_folder(
     *,
     options: ExtractOptions | None = None,
     progress: Progress | None = None,
+    store: Store | None = None,
+    reextract: bool = False,
+    notify: Callable[[str], None] | None = None,
 ) -> ExtractionResult:
-    """Extract every file under ``input_path``.  One bad file never stops the run."""
+    """Extract every file under ``input_path``.  One bad file never stops the run.
+
+    With a ``store`` (:class:`structurize.store.Store`, opened and locked by the caller),
+    only documents and fields the store does not already hold are extracted, each document
+    is recorded in its own transaction, and the run is recorded; ``notify`` receives one-line
+    messages about the run (a schema change, documents no longer in the folder).
+    """
     options = options or ExtractOptions()
     root = Path(input_path)
     if not root.exists():
@@ -238,7 +248,15 @@ def extract_folder(
     started = time.perf_counter()
     tasks = list(discover(root))
     results: list[DocumentResult] = []
-    if options.workers == 0:
+    run_id = None
+    if store is not None:
+        from . import incremental
+
+        results, report = incremental.run(
+            tasks, schema, store, options, str(root.resolve()), reextract=reextract, progress=progress, notify=notify
+        )
+        run_id = report.run_id
+    elif options.workers == 0:
         ner = ner_for(options)
         for path, source in tasks:
             results.append(extract_document(path, schema, source=source, options=options, ner=ner))
@@ -251,8 +269,9 @@ def extract_folder(
             results.append(result)
             if progress is not None:
                 progress(result.source)
-    results.sort(key=lambda result: result.source)
-    results = flag_unusual_gaps(schema, check_unique(schema, results))
+    if store is None:
+        results.sort(key=lambda result: result.source)
+        results = flag_unusual_gaps(schema, check_unique(schema, results))
     return ExtractionResult(
         schema=schema,
         documents=tuple(results),
@@ -264,6 +283,7 @@ def extract_folder(
             "workers": options.workers if options.workers is not None else "auto",
             "time_limit": options.limits.seconds,
             "memory_limit": options.limits.memory_mb,
+            "run": run_id,
         },
     )
 

@@ -6,6 +6,7 @@ finished but some documents could not be read.
 
 from __future__ import annotations
 
+import json
 import os
 import sys
 import time
@@ -19,7 +20,8 @@ from . import api
 from .errors import StructurizeError, UsageError
 from .options import PASSWORD_ENV, ExtractOptions
 from .types import DocStatus
-from .schema import load_schema
+from .schema import TargetSchema, load_schema
+from .store import Store
 from .score import score_path
 from .write import write_outputs
 
@@ -45,6 +47,7 @@ err = Console(stderr=True, highlight=False, soft_wrap=True)
 out = Console(highlight=False, soft_wrap=True)
 
 SchemaOpt = Annotated[Path, typer.Option("--schema", "-s", help="Schema file (YAML or JSON), or a folder of schemas named after the input's subfolders.")]
+StoreOpt = Annotated[Optional[Path], typer.Option("--store", help="Workspace store file: extract only what is new, and record the run.")]
 QuietOpt = Annotated[bool, typer.Option("--quiet", "-q", help="No progress bar and no summary; errors only.")]
 
 
@@ -71,6 +74,8 @@ def extract_command(
     memory_limit: Annotated[Optional[int], typer.Option("--memory-limit", min=256, max=65536, help="Megabytes allowed per worker (default 1536, or the schema's extract.memory_limit).")] = None,
     password_file: Annotated[Optional[Path], typer.Option("--pdf-password-file", help=f"File holding the password for encrypted PDFs (or set {PASSWORD_ENV}).")] = None,
     ocr: Annotated[bool, typer.Option("--ocr", help="Read scanned PDF pages with Tesseract (tesseract-ocr must be installed).")] = False,
+    store: StoreOpt = None,
+    reextract: Annotated[bool, typer.Option("--reextract", help="With --store: extract every document again, ignoring stored values.")] = False,
 ) -> None:
     """Extract every schema field from every document under INPUT into OUT."""
     try:
@@ -84,9 +89,18 @@ def extract_command(
             ocr=ocr,
         )
         jobs = _jobs(input_path, schema, output)
+        # pre-flight: every schema valid, every output folder writable, the store usable
+        loaded = [(folder, load_schema(schema_file), out_dir) for folder, schema_file, out_dir in jobs]
+        for _, _, out_dir in loaded:
+            _check_writable(out_dir)
+        opened = _open_store(store, lock=True, quiet=quiet) if store is not None else None
         failed = 0
-        for folder, schema_file, out_dir in jobs:
-            failed += _run_one(folder, schema_file, out_dir, options, quiet)
+        try:
+            for folder, target, out_dir in loaded:
+                failed += _run_one(folder, target, out_dir, options, quiet, opened, reextract)
+        finally:
+            if opened is not None:
+                opened.close()
     except StructurizeError as exc:
         raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None
     if failed:
@@ -122,9 +136,21 @@ def _jobs(input_path: Path, schema: Path, output: Path) -> list[tuple[Path, Path
     return [(input_path, schema, output)]
 
 
-def _run_one(folder: Path, schema_file: Path, out_dir: Path, options: ExtractOptions, quiet: bool) -> int:
-    target = load_schema(schema_file)
-    _check_writable(out_dir)
+def _open_store(path: Path, *, lock: bool, quiet: bool, create: bool = True) -> Store:
+    opened = Store.open(path, create=create)
+    if lock:
+        try:
+            message = opened.acquire()
+        except StructurizeError:
+            opened.close()
+            raise
+        if message and not quiet:
+            err.print(f"structurize: {_escape(str(path))}: {message}", markup=False)
+    return opened
+
+
+def _run_one(folder: Path, target: TargetSchema, out_dir: Path, options: ExtractOptions, quiet: bool,
+             store: Store | None = None, reextract: bool = False) -> int:
     total = api.count_inputs(folder)
     started = time.monotonic()
     progress = None
@@ -146,27 +172,38 @@ def _run_one(folder: Path, schema_file: Path, out_dir: Path, options: ExtractOpt
             progress.update(task, completed=done)
 
     try:
-        result = api.extract_folder(folder, target, options=options, progress=tick)
+        result = api.extract_folder(
+            folder, target, options=options, progress=tick, store=store, reextract=reextract,
+            notify=lambda message: None if quiet else err.print(f"structurize: {message}", markup=False),
+        )
     finally:
         if progress is not None:
             progress.stop()
     paths = write_outputs(result, out_dir, bom=options.csv_bom)
-    failed = [doc for doc in result.documents if not doc.status.readable]
+    _report_documents(result, quiet)
+    if not quiet:
+        _summary(target.name, result, paths["table"].parent)
+    return sum(1 for doc in result.documents if not doc.status.readable)
+
+
+def _report_documents(result: api.ExtractionResult, quiet: bool) -> None:
     for doc in result.documents:
         if doc.status is DocStatus.OK:
             continue
         note = doc.note or NOTES.get(doc.reason or str(doc.status), doc.status.value.replace("_", " "))
         err.print(f"structurize: {_escape(doc.source)}: {doc.reason or doc.status}: {note}", markup=False)
-    if not quiet:
-        counts = result.counts()
-        statuses = ", ".join(f"{n} {status}" for status, n in result.status_counts().items())
-        out.print(
-            f"{target.name}: {counts['documents']} documents ({statuses}); values: "
-            f"{counts['ok']} ok, {counts['review']} to review, {counts['missing']} missing, {counts['invalid']} invalid; "
-            f"outputs in {paths['table'].parent}",
-            markup=False,
-        )
-    return len(failed)
+
+
+def _summary(name: str, result: api.ExtractionResult, where: Path) -> None:
+    counts = result.counts()
+    statuses = ", ".join(f"{n} {status}" for status, n in result.status_counts().items()) or "none"
+    run = f"run {result.settings['run']}: " if result.settings.get("run") else ""
+    out.print(
+        f"{name}: {run}{counts['documents']} documents ({statuses}); values: "
+        f"{counts['ok']} ok, {counts['review']} to review, {counts['missing']} missing, {counts['invalid']} invalid; "
+        f"outputs in {where}",
+        markup=False,
+    )
 
 
 def _check_writable(out_dir: Path) -> None:
@@ -230,6 +267,78 @@ def _render_score(score, show_mistakes: bool) -> None:  # type: ignore[no-untype
         for mistake in score.mistakes:
             mark = "flagged" if mistake.flagged else "NOT flagged"
             out.print(f"{mistake.kind}/{mistake.document} {mistake.field}: gold {mistake.gold!r} got {mistake.output!r} ({mark})", markup=False)
+
+
+@app.command("runs")
+def runs_command(store: Annotated[Path, typer.Option("--store", help="The workspace store file.")]) -> None:
+    """List the runs recorded in a workspace store."""
+    try:
+        opened = _open_store(store, lock=False, quiet=True, create=False)
+    except StructurizeError as exc:
+        raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None
+    with opened:
+        rows = opened.runs()
+    from rich.table import Table
+
+    table = Table(title=f"runs in {store.name}")
+    for column in ("run", "schema", "started", "finished", "state", "documents"):
+        table.add_column(column)
+    for row in rows:
+        counts = json.loads(row["counts"] or "{}")
+        documents = f"{counts.get('extracted', 0)} extracted, {counts.get('reused', 0)} reused, {counts.get('missing', 0)} gone" if counts else ""
+        table.add_row(str(row["id"]), row["schema_name"], row["started_at"], row["finished_at"] or "", row["state"], documents)
+    Console(highlight=False, width=None if out.is_terminal else 132).print(table)
+
+
+@app.command("run")
+def run_command(
+    run_id: Annotated[int, typer.Argument(metavar="RUN", help="Run number (see `structurize runs`).")],
+    store: Annotated[Path, typer.Option("--store", help="The workspace store file.")],
+) -> None:
+    """Show one run: when, which schema and tool version, counts, and every input."""
+    try:
+        opened = _open_store(store, lock=False, quiet=True, create=False)
+    except StructurizeError as exc:
+        raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None
+    with opened:
+        run = opened.run(run_id)
+    if run is None:
+        raise _fail(f"{_escape(str(store))}: no run {run_id}", EXIT_USAGE)
+    for key in ("id", "schema_name", "schema_hash", "tool_version", "extractor_version", "input_root", "started_at", "finished_at", "state"):
+        out.print(f"{key}: {run[key] if run[key] is not None else ''}", markup=False)
+    out.print(f"counts: {run['counts'] or '{}'}", markup=False)
+    for doc in run["documents"]:
+        fields = json.loads(doc["fields"])
+        extra = f" ({', '.join(fields)})" if fields and doc["action"] == "extracted" else ""
+        out.print(f"  {doc['action']:9} {_escape(doc['path'])} {doc['sha256'][:12]}{extra}", markup=False)
+
+
+@app.command("export")
+def export_command(
+    schema: SchemaOpt,
+    output: Annotated[Path, typer.Option("--out", "-o", help="Folder for the outputs.")],
+    store: Annotated[Path, typer.Option("--store", help="The workspace store file.")],
+    run_id: Annotated[Optional[int], typer.Option("--run", help="Only the documents of this run (default: the whole workspace).")] = None,
+    plain_csv: Annotated[bool, typer.Option("--plain-csv", help="Write CSV without the UTF-8 byte-order mark Excel needs.")] = False,
+    quiet: QuietOpt = False,
+) -> None:
+    """Write the outputs from the store, without extracting anything."""
+    from . import incremental
+
+    try:
+        target = load_schema(schema)
+        _check_writable(output)
+        opened = _open_store(store, lock=False, quiet=True, create=False)
+        with opened:
+            if run_id is not None and opened.run(run_id) is None:
+                raise UsageError(f"{_escape(str(store))}: no run {run_id}")
+            documents = incremental.export(opened, target, run_id)
+        result = api.ExtractionResult(schema=target, documents=tuple(documents), settings={"run": run_id})
+        paths = write_outputs(result, output, bom=not plain_csv)
+    except StructurizeError as exc:
+        raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None
+    if not quiet:
+        _summary(target.name, result, paths["table"].parent)
 
 
 def main() -> None:

@@ -24,6 +24,7 @@ from typing import Any
 import pandas as pd
 
 from .api import ExtractionResult
+from .faults import fault_point
 from .schema.model import FieldSpec, TargetSchema
 from .types import ValueStatus
 
@@ -83,7 +84,9 @@ def atomic_write(path: Path, data: bytes) -> None:
             out.write(data)
             out.flush()
             os.fsync(out.fileno())
+        fault_point("before_output_rename")
         os.replace(temporary, path)
+        fault_point("after_output_rename")
     except BaseException:
         try:
             os.unlink(temporary)

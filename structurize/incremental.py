@@ -1,0 +1,188 @@
+"""Incremental runs over a workspace store: extract only what is new, reuse the rest.
+
+A document is identified by the SHA-256 of its bytes.  A stored value is reused when its
+document's hash, its field's definition hash and the extractor version all match; anything
+else is extracted again.  So an unchanged folder costs one hash per file; a renamed file is
+the same document; a changed file is a new document (its old values stay in the store as
+history); a new field, or a field whose definition changed, is extracted for every
+document, and nothing else is.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from .options import ExtractOptions
+from .readers import file_sha256
+from .schema.model import TargetSchema
+from .store import Store
+from .types import DocumentResult
+from .validate import check_unique, flag_unusual_gaps
+from .version import EXTRACTOR_VERSION, __version__
+
+#: Reasons that say more about the machine than the document: such a document is retried.
+RETRY_REASONS = frozenset({"timeout", "worker_crash", "memory_limit", "extract_error", "changed_during_read"})
+Notify = Callable[[str], None]
+
+
+def _digest(data: Any) -> str:
+    return hashlib.sha256(json.dumps(data, sort_keys=True, default=str).encode("utf-8")).hexdigest()
+
+
+def schema_hash(schema: TargetSchema) -> str:
+    return _digest(schema.descriptor)
+
+
+def field_hashes(schema: TargetSchema) -> dict[str, str]:
+    """One hash per field: its descriptor plus the schema-wide settings that shape extraction.
+
+    A change to another field does not change this field's hash.  (Cues of other fields can
+    in rare layouts change which label a field claims; ``--reextract`` redoes everything.)
+    """
+    settings = dict(schema.descriptor.get("extract") or {})
+    for key in ("time_limit", "memory_limit"):  # run settings, not extraction
+        settings.pop(key, None)
+    return {spec.name: _digest({"field": spec.descriptor, "schema": settings}) for spec in schema.fields}
+
+
+@dataclass(frozen=True)
+class SchemaChange:
+    added: tuple[str, ...] = ()
+    changed: tuple[str, ...] = ()
+    removed: tuple[str, ...] = ()
+
+    @property
+    def any(self) -> bool:
+        return bool(self.added or self.changed or self.removed)
+
+    def describe(self, documents: int, fields: int) -> str:
+        parts = [f"+{len(self.added)} field{'s' * (len(self.added) != 1)}"] if self.added else []
+        if self.changed:
+            parts.append(f"~{len(self.changed)} field{'s' * (len(self.changed) != 1)}")
+        if self.removed:
+            parts.append(f"-{len(self.removed)} field{'s' * (len(self.removed) != 1)}")
+        need = f"{documents} document{'s' * (documents != 1)} need {fields} field{'s' * (fields != 1)} re-extracted"
+        return f"schema changed: {', '.join(parts)}; {need}"
+
+
+def compare(previous: dict[str, str] | None, current: dict[str, str]) -> SchemaChange:
+    if previous is None:
+        return SchemaChange()
+    return SchemaChange(
+        added=tuple(name for name in current if name not in previous),
+        changed=tuple(name for name in current if name in previous and previous[name] != current[name]),
+        removed=tuple(name for name in previous if name not in current),
+    )
+
+
+@dataclass
+class RunReport:
+    run_id: int
+    extracted: int = 0
+    reused: int = 0
+    missing: list[str] = field(default_factory=list)
+    change: SchemaChange = field(default_factory=SchemaChange)
+    messages: list[str] = field(default_factory=list)
+
+
+def run(
+    tasks: list[tuple[Path, str]],
+    schema: TargetSchema,
+    store: Store,
+    options: ExtractOptions,
+    input_root: str,
+    *,
+    reextract: bool = False,
+    progress: Callable[[str], None] | None = None,
+    notify: Notify | None = None,
+) -> tuple[list[DocumentResult], RunReport]:
+    """One incremental run: plan, extract what is needed (one transaction each), rebuild."""
+    say = notify or (lambda message: None)
+    hashes = field_hashes(schema)
+    previous = store.previous_run(schema.name)
+    change = compare(json.loads(previous["field_hashes"]) if previous else None, hashes)
+    shas = {source: file_sha256(path) for path, source in tasks}
+    cached = store.cached_fields(schema.name, shas.values(), EXTRACTOR_VERSION)
+    failed = {sha for sha, reason in store.reasons(shas.values()).items() if reason in RETRY_REASONS}
+    plan: list[tuple[Path, str, list[str]]] = []
+    reuse: list[tuple[str, str]] = []
+    for path, source in tasks:
+        sha = shas[source]
+        have = cached.get(sha, {})
+        needed = [name for name in schema.field_names if reextract or hashes[name] not in have.get(name, set())]
+        if sha in failed:
+            needed = list(schema.field_names)
+        if needed:
+            plan.append((path, source, needed))
+        else:
+            reuse.append((source, sha))
+    if change.any and previous is not None:
+        fields = {name for _, _, needed in plan for name in needed}
+        say(change.describe(len(plan), len(fields)))
+    run_id = store.begin_run(schema, hashes, schema_hash(schema), input_root, __version__, EXTRACTOR_VERSION)
+    report = RunReport(run_id, change=change)
+    current = set(shas.values())
+    for path, sha in store.known_paths(schema.name, input_root).items():
+        if path not in shas and sha not in current:
+            store.record_missing(run_id, path, sha)
+            report.missing.append(path)
+    if report.missing:
+        say(f"{len(report.missing)} document{'s' * (len(report.missing) != 1)} seen before in this folder "
+            f"{'are' if len(report.missing) != 1 else 'is'} no longer there: " + ", ".join(report.missing[:5])
+            + (" ..." if len(report.missing) > 5 else ""))
+    for source, sha in reuse:
+        store.reuse_document(run_id, schema.name, input_root, source, sha)
+        report.reused += 1
+        if progress:
+            progress(source)
+    needed_by_source = {source: needed for _, source, needed in plan}
+    for result in _extract(plan, schema, options):
+        fields = needed_by_source[result.source]
+        if result.sha256 != shas[result.source] or not result.sha256:
+            fields = list(schema.field_names)  # the file changed since it was hashed
+        if result.sha256:
+            store.save_document(run_id, schema.name, input_root, result.source, result, hashes, fields, EXTRACTOR_VERSION)
+        report.extracted += 1
+        if progress:
+            progress(result.source)
+    started = time.perf_counter()
+    documents = store.run_documents(run_id)
+    results = finish(schema, store, documents)
+    counts = {"extracted": report.extracted, "reused": report.reused, "missing": len(report.missing)}
+    for result in results:
+        counts[str(result.status)] = counts.get(str(result.status), 0) + 1
+    store.finish_run(run_id, counts, note=f"rebuilt in {time.perf_counter() - started:.3f} s")
+    return results, report
+
+
+def finish(schema: TargetSchema, store: Store, documents: list[tuple[str, str]]) -> list[DocumentResult]:
+    """Stored results for these documents, with the table-wide checks applied."""
+    results = store.results(schema, field_hashes(schema), EXTRACTOR_VERSION, documents)
+    results.sort(key=lambda result: result.source)
+    return flag_unusual_gaps(schema, check_unique(schema, results))
+
+
+def _extract(plan: list[tuple[Path, str, list[str]]], schema: TargetSchema, options: ExtractOptions):  # type: ignore[no-untyped-def]
+    tasks = [(path, source) for path, source, _ in plan]
+    if options.workers == 0:
+        from .api import extract_document, ner_for
+
+        ner = ner_for(options)
+        for path, source in tasks:
+            yield extract_document(path, schema, source=source, options=options, ner=ner)
+        return
+    from .workers import run_documents
+
+    yield from run_documents(tasks, schema, options)
+
+
+def export(store: Store, schema: TargetSchema, run_id: int | None = None) -> list[DocumentResult]:
+    """Results from the store without extracting: one run's documents, or the whole workspace."""
+    documents = store.run_documents(run_id) if run_id is not None else store.workspace_documents(schema.name)
+    return finish(schema, store, documents)

@@ -1,0 +1,416 @@
+"""The workspace store: an embedded SQLite file that remembers documents, runs and values.
+
+What it promises (tests in tests/test_store*.py):
+
+* **One transaction per document.** A document's status row and all of its values are
+  written in one ``BEGIN IMMEDIATE`` transaction, so a crash leaves each document either
+  complete or absent; a re-run picks up where the crash left off.
+* **Identity is content.** A document is its SHA-256; a cached value is reused only when
+  the content hash, the field's definition hash and the extractor version all match.
+* **One writer.** A run holds an exclusive lock on ``<store>.lock`` (``fcntl.flock``); a
+  second run is refused at once with a message naming the holder.  The lock dies with its
+  process, so a lock file left by a dead process is taken over (with a message).
+* **Nothing is thrown away.** A corrupt store, or one written by a newer structurize, is
+  refused with guidance, never deleted or recreated.
+
+Settings: WAL journal (readers do not block the writer), ``synchronous=FULL``, a busy
+timeout, ``foreign_keys=ON``, ``application_id`` and ``user_version``, and the named
+migrations in :mod:`structurize.store.migrations`.  Keep the store on a local disk: WAL
+does not work over network file systems.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import os
+import sqlite3
+from collections.abc import Iterable, Iterator
+from contextlib import contextmanager
+from decimal import Decimal
+from pathlib import Path
+from typing import Any
+
+from ..errors import StructurizeError
+from ..faults import fault_point
+from ..schema.model import FieldSpec, TargetSchema
+from ..types import Alternative, DocStatus, DocumentResult, FieldValue, Span, ValueStatus
+from .lock import StoreLock
+from .migrations import MIGRATIONS
+
+APPLICATION_ID = 0x5354525A  # "STRZ"
+BUSY_TIMEOUT_MS = 10_000
+
+
+class StoreError(StructurizeError):
+    """The store cannot be used: corrupt, newer, full or unwritable."""
+
+    exit_code = 1
+
+
+class StoreBusy(StoreError):
+    """Another run holds the store."""
+
+    exit_code = 2
+
+
+def now() -> str:
+    return dt.datetime.now(dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def _explain(exc: sqlite3.Error, path: Path) -> StoreError:
+    text = str(exc).lower()
+    if "not a database" in text or "malformed" in text or "corrupt" in text:
+        return StoreError(f"store corrupt: {path}; restore it from a backup (it was not changed)")
+    if "full" in text or "disk i/o" in text or "no space" in text:
+        return StoreError(f"store {path}: no space left on the device, or the disk cannot be written")
+    if "readonly" in text or "read-only" in text:
+        return StoreError(f"store {path}: the store or its folder is read-only")
+    if "locked" in text or "busy" in text:
+        return StoreBusy(f"store {path}: busy (another process is writing it)")
+    return StoreError(f"store {path}: {exc}")
+
+
+class Store:
+    """An open workspace store.  Use :meth:`open`; close it (or use ``with``) when done."""
+
+    def __init__(self, path: Path, db: sqlite3.Connection) -> None:
+        self.path = path
+        self.db = db
+        self.lock: StoreLock | None = None
+
+    # --- opening -------------------------------------------------------------------------
+
+    @classmethod
+    def open(cls, path: str | Path, *, create: bool = True) -> Store:
+        path = Path(path)
+        if path.is_dir():
+            raise StoreError(f"store {path}: is a folder; give the path of a store file")
+        exists = path.exists() and path.stat().st_size > 0
+        if not exists and not create:
+            raise StoreError(f"store {path}: not found")
+        if exists:
+            with path.open("rb") as handle:
+                if handle.read(16) != b"SQLite format 3\x00":
+                    raise StoreError(f"store {path}: not a structurize store (not an SQLite file); it was not changed")
+        try:
+            path.parent.mkdir(parents=True, exist_ok=True)
+            db = sqlite3.connect(str(path), timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None)
+        except (sqlite3.Error, OSError) as exc:
+            raise StoreError(f"store {path}: cannot be opened ({exc})") from None
+        store = cls(path, db)
+        try:
+            store._check_and_migrate(exists)
+        except sqlite3.Error as exc:
+            db.close()
+            raise _explain(exc, path) from None
+        except StoreError:
+            db.close()
+            raise
+        return store
+
+    def _check_and_migrate(self, existed: bool) -> None:
+        db = self.db
+        db.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+        if existed:
+            application = db.execute("PRAGMA application_id").fetchone()[0]
+            if application != APPLICATION_ID:
+                raise StoreError(f"store {self.path}: not a structurize store; it was not changed")
+            result = db.execute("PRAGMA quick_check").fetchone()[0]
+            if result != "ok":
+                raise StoreError(f"store corrupt: {self.path}; restore it from a backup (it was not changed)")
+            version = db.execute("PRAGMA user_version").fetchone()[0]
+            if version > len(MIGRATIONS):
+                raise StoreError(
+                    f"store {self.path}: written by a newer structurize (store version {version}, "
+                    f"this one knows {len(MIGRATIONS)}); upgrade structurize"
+                )
+        db.execute("PRAGMA journal_mode = WAL")
+        db.execute("PRAGMA synchronous = FULL")
+        db.execute("PRAGMA foreign_keys = ON")
+        version = db.execute("PRAGMA user_version").fetchone()[0]
+        for index, (name, migrate) in enumerate(MIGRATIONS, start=1):
+            if index <= version:
+                continue
+            db.execute("BEGIN IMMEDIATE")
+            try:
+                if index == 1:
+                    db.execute("CREATE TABLE IF NOT EXISTS migrations (name TEXT PRIMARY KEY, applied_at TEXT NOT NULL)")
+                    db.execute(f"PRAGMA application_id = {APPLICATION_ID}")
+                migrate(db)
+                db.execute("INSERT INTO migrations (name, applied_at) VALUES (?, ?)", (name, now()))
+                db.execute(f"PRAGMA user_version = {index}")
+                db.execute("COMMIT")
+            except BaseException:
+                db.execute("ROLLBACK")
+                raise
+
+    def close(self) -> None:
+        if self.lock is not None:
+            self.lock.release()
+            self.lock = None
+        self.db.close()
+
+    def __enter__(self) -> Store:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def acquire(self) -> str | None:
+        """Take the writer's lock; returns a message when a stale lock was taken over."""
+        self.lock = StoreLock(self.path)
+        return self.lock.acquire()
+
+    @contextmanager
+    def transaction(self) -> Iterator[sqlite3.Connection]:
+        try:
+            self.db.execute("BEGIN IMMEDIATE")
+        except sqlite3.Error as exc:
+            raise _explain(exc, self.path) from None
+        try:
+            yield self.db
+            fault_point("before_commit")
+            self.db.execute("COMMIT")
+        except sqlite3.Error as exc:
+            if self.db.in_transaction:
+                self.db.execute("ROLLBACK")
+            raise _explain(exc, self.path) from None
+        except BaseException:
+            if self.db.in_transaction:
+                self.db.execute("ROLLBACK")
+            raise
+
+    # --- runs ----------------------------------------------------------------------------
+
+    def begin_run(self, schema: TargetSchema, field_hashes: dict[str, str], schema_hash: str, input_root: str,
+                  tool_version: str, extractor_version: str) -> int:
+        with self.transaction() as db:
+            db.execute("UPDATE runs SET state = 'interrupted' WHERE state = 'running'")
+            cursor = db.execute(
+                "INSERT INTO runs (schema_name, schema_hash, field_hashes, schema_descriptor, tool_version, extractor_version,"
+                " input_root, started_at, state, pid) VALUES (?, ?, ?, ?, ?, ?, ?, ?, 'running', ?)",
+                (schema.name, schema_hash, json.dumps(field_hashes, sort_keys=True), json.dumps(schema.descriptor, default=str),
+                 tool_version, extractor_version, input_root, now(), os.getpid()),
+            )
+            return int(cursor.lastrowid)
+
+    def finish_run(self, run_id: int, counts: dict[str, Any], note: str = "") -> None:
+        with self.transaction() as db:
+            db.execute(
+                "UPDATE runs SET state = 'finished', finished_at = ?, counts = ?, note = ? WHERE id = ?",
+                (now(), json.dumps(counts, sort_keys=True), note, run_id),
+            )
+
+    def previous_run(self, schema_name: str) -> sqlite3.Row | None:
+        self.db.row_factory = sqlite3.Row
+        try:
+            return self.db.execute(
+                "SELECT * FROM runs WHERE schema_name = ? AND state = 'finished' ORDER BY id DESC LIMIT 1", (schema_name,)
+            ).fetchone()
+        finally:
+            self.db.row_factory = None
+
+    def runs(self) -> list[dict[str, Any]]:
+        return [dict(row) for row in self._rows("SELECT * FROM runs ORDER BY id")]
+
+    def run(self, run_id: int) -> dict[str, Any] | None:
+        rows = self._rows("SELECT * FROM runs WHERE id = ?", (run_id,))
+        if not rows:
+            return None
+        run = dict(rows[0])
+        run["documents"] = [dict(row) for row in self._rows(
+            "SELECT path, sha256, action, fields FROM run_documents WHERE run_id = ? ORDER BY path", (run_id,))]
+        return run
+
+    def _rows(self, sql: str, parameters: tuple[Any, ...] = ()) -> list[sqlite3.Row]:
+        self.db.row_factory = sqlite3.Row
+        try:
+            return self.db.execute(sql, parameters).fetchall()
+        except sqlite3.Error as exc:
+            raise _explain(exc, self.path) from None
+        finally:
+            self.db.row_factory = None
+
+    # --- documents -----------------------------------------------------------------------
+
+    def known_paths(self, schema_name: str, input_root: str) -> dict[str, str]:
+        """{path: sha256} as last seen under ``input_root`` for this schema."""
+        rows = self._rows(
+            "SELECT path, sha256, last_run FROM paths WHERE schema_name = ? AND input_root = ? ORDER BY last_run",
+            (schema_name, input_root),
+        )
+        return {row["path"]: row["sha256"] for row in rows}
+
+    def cached_fields(self, schema_name: str, shas: Iterable[str], extractor_version: str) -> dict[str, dict[str, str]]:
+        """{sha256: {field: field_hash}} of the values stored for these documents."""
+        out: dict[str, dict[str, str]] = {}
+        wanted = list(dict.fromkeys(shas))
+        for start in range(0, len(wanted), 500):
+            chunk = wanted[start : start + 500]
+            marks = ",".join("?" * len(chunk))
+            for row in self._rows(
+                f"SELECT sha256, field, field_hash FROM field_values WHERE schema_name = ? AND extractor_version = ? AND sha256 IN ({marks})",
+                (schema_name, extractor_version, *chunk),
+            ):
+                out.setdefault(row["sha256"], {}).setdefault(row["field"], set()).add(row["field_hash"])  # type: ignore[attr-defined]
+        return out  # type: ignore[return-value]
+
+    def reasons(self, shas: Iterable[str]) -> dict[str, str]:
+        """{sha256: reason code} of the documents already recorded."""
+        wanted = list(dict.fromkeys(shas))
+        out: dict[str, str] = {}
+        for start in range(0, len(wanted), 500):
+            chunk = wanted[start : start + 500]
+            marks = ",".join("?" * len(chunk))
+            for row in self._rows(f"SELECT sha256, reason FROM documents WHERE sha256 IN ({marks})", tuple(chunk)):
+                out[row["sha256"]] = row["reason"]
+        return out
+
+    def save_document(self, run_id: int, schema_name: str, input_root: str, path: str, result: DocumentResult,
+                      field_hashes: dict[str, str], fields: list[str], extractor_version: str) -> None:
+        """Record one extracted document: status, the values of ``fields``, its path — one transaction."""
+        with self.transaction() as db:
+            db.execute(
+                "INSERT INTO documents (sha256, reader, encoding, pages, chars, status, reason, note, warnings, seconds, first_run)"
+                " VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT(sha256) DO UPDATE SET reader = excluded.reader,"
+                " encoding = excluded.encoding, pages = excluded.pages, chars = excluded.chars, status = excluded.status,"
+                " reason = excluded.reason, note = excluded.note, warnings = excluded.warnings, seconds = excluded.seconds",
+                (result.sha256, result.reader, result.encoding, result.pages, result.chars, str(result.status), result.reason,
+                 result.note, json.dumps(list(result.warnings)), round(result.seconds, 3), run_id),
+            )
+            fault_point("after_document_before_values")
+            for item in result.values:
+                if item.field not in fields:
+                    continue
+                db.execute(
+                    "INSERT OR REPLACE INTO field_values (sha256, schema_name, field, field_hash, extractor_version, value,"
+                    " confidence, status, span_start, span_end, page, snippet, raw, extractor, reason, evidence, alternatives,"
+                    " run_id) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                    (result.sha256, schema_name, item.field, field_hashes[item.field], extractor_version, _dump_value(item.value),
+                     item.confidence, str(item.status), item.span.start if item.span else None, item.span.end if item.span else None,
+                     item.page, item.snippet, item.raw, item.extractor, item.reason, json.dumps(list(item.evidence)),
+                     json.dumps([_dump_alternative(alt) for alt in item.alternatives]), run_id),
+                )
+            fault_point("after_values_before_status")
+            self._record_path(db, run_id, schema_name, input_root, path, result.sha256, "extracted", fields)
+
+    def reuse_document(self, run_id: int, schema_name: str, input_root: str, path: str, sha256: str) -> None:
+        with self.transaction() as db:
+            self._record_path(db, run_id, schema_name, input_root, path, sha256, "reused", [])
+
+    def record_missing(self, run_id: int, path: str, sha256: str) -> None:
+        with self.transaction() as db:
+            db.execute(
+                "INSERT OR REPLACE INTO run_documents (run_id, path, sha256, action, fields) VALUES (?, ?, ?, 'missing', '[]')",
+                (run_id, path, sha256),
+            )
+
+    def _record_path(self, db: sqlite3.Connection, run_id: int, schema_name: str, input_root: str, path: str, sha256: str,
+                     action: str, fields: list[str]) -> None:
+        db.execute(
+            "INSERT INTO paths (schema_name, input_root, path, sha256, first_run, last_run) VALUES (?, ?, ?, ?, ?, ?)"
+            " ON CONFLICT(schema_name, input_root, path, sha256) DO UPDATE SET last_run = excluded.last_run",
+            (schema_name, input_root, path, sha256, run_id, run_id),
+        )
+        db.execute(
+            "INSERT OR REPLACE INTO run_documents (run_id, path, sha256, action, fields) VALUES (?, ?, ?, ?, ?)",
+            (run_id, path, sha256, action, json.dumps(sorted(fields))),
+        )
+
+    # --- reading results back ----------------------------------------------------------
+
+    def results(self, schema: TargetSchema, field_hashes: dict[str, str], extractor_version: str,
+                documents: Iterable[tuple[str, str]]) -> list[DocumentResult]:
+        """Rebuild :class:`DocumentResult` objects for ``(path, sha256)`` pairs from stored rows."""
+        out = []
+        for path, sha256 in documents:
+            rows = self._rows("SELECT * FROM documents WHERE sha256 = ?", (sha256,))
+            if not rows:
+                continue
+            doc = rows[0]
+            stored = {
+                row["field"]: row
+                for row in self._rows(
+                    "SELECT * FROM field_values WHERE sha256 = ? AND schema_name = ? AND extractor_version = ?",
+                    (sha256, schema.name, extractor_version),
+                )
+                if row["field_hash"] == field_hashes.get(row["field"])
+            }
+            values = tuple(_load_value(spec, stored.get(spec.name)) for spec in schema.fields)
+            out.append(
+                DocumentResult(
+                    source=path, sha256=sha256, status=DocStatus(doc["status"]), reason=doc["reason"], note=doc["note"],
+                    reader=doc["reader"], encoding=doc["encoding"], pages=doc["pages"], chars=doc["chars"],
+                    warnings=tuple(json.loads(doc["warnings"])), seconds=doc["seconds"], values=values,
+                )
+            )
+        return out
+
+    def run_documents(self, run_id: int) -> list[tuple[str, str]]:
+        return [(row["path"], row["sha256"]) for row in self._rows(
+            "SELECT path, sha256 FROM run_documents WHERE run_id = ? AND action != 'missing' ORDER BY path", (run_id,))]
+
+    def workspace_documents(self, schema_name: str) -> list[tuple[str, str]]:
+        """Every document seen under this schema: its latest path (and input folder) per content."""
+        rows = self._rows(
+            "SELECT path, sha256, input_root, last_run FROM paths WHERE schema_name = ? ORDER BY last_run, path", (schema_name,)
+        )
+        latest: dict[str, tuple[str, str]] = {}
+        for row in rows:
+            latest[row["sha256"]] = (row["path"], row["sha256"])
+        return sorted(latest.values())
+
+
+def _dump_value(value: Any) -> str | None:
+    if value is None:
+        return None
+    if isinstance(value, bool):
+        return json.dumps({"t": "bool", "v": value})
+    if isinstance(value, dt.datetime):
+        return json.dumps({"t": "datetime", "v": value.isoformat()})
+    if isinstance(value, dt.date):
+        return json.dumps({"t": "date", "v": value.isoformat()})
+    if isinstance(value, Decimal):
+        return json.dumps({"t": "decimal", "v": str(value)})
+    if isinstance(value, int):
+        return json.dumps({"t": "int", "v": value})
+    return json.dumps({"t": "str", "v": str(value)})
+
+
+def _parse_value(text: str | None) -> Any:
+    if text is None:
+        return None
+    data = json.loads(text)
+    kind, value = data["t"], data["v"]
+    if kind == "date":
+        return dt.date.fromisoformat(value)
+    if kind == "datetime":
+        return dt.datetime.fromisoformat(value)
+    if kind == "decimal":
+        return Decimal(value)
+    return value
+
+
+def _dump_alternative(alternative: Alternative) -> dict[str, Any]:
+    return {
+        "value": _dump_value(alternative.value),
+        "score": alternative.score,
+        "start": alternative.span.start if alternative.span else None,
+        "end": alternative.span.end if alternative.span else None,
+    }
+
+
+def _load_value(spec: FieldSpec, row: sqlite3.Row | None) -> FieldValue:
+    if row is None:
+        return FieldValue(spec.name, None, 0.0, ValueStatus.MISSING, reason="not extracted yet")
+    span = Span(row["span_start"], row["span_end"]) if row["span_start"] is not None else None
+    alternatives = tuple(
+        Alternative(_parse_value(alt["value"]), alt["score"], Span(alt["start"], alt["end"]) if alt["start"] is not None else None)
+        for alt in json.loads(row["alternatives"])
+    )
+    return FieldValue(
+        field=spec.name, value=_parse_value(row["value"]), confidence=row["confidence"], status=ValueStatus(row["status"]),
+        span=span, page=row["page"], snippet=row["snippet"], raw=row["raw"], extractor=row["extractor"], reason=row["reason"],
+        evidence=tuple(json.loads(row["evidence"])), alternatives=alternatives,
+    )
