@@ -12,7 +12,7 @@ from __future__ import annotations
 import datetime as dt
 import re
 from dataclasses import dataclass
-from functools import cached_property
+from functools import cached_property, lru_cache
 
 from ..schema.model import FieldSpec, TargetSchema
 from ..types import Document, Span
@@ -20,8 +20,8 @@ from . import dates as datelib
 from .layout import LabelPair, find_pairs
 from .money import MoneyMention, find_money
 from .ner import Entity
-from .text import find_phrase, fold, leading_name, norm, normalise_name
-from .vocab import Vocabulary
+from .text import PhraseSet, fold, leading_name, norm, normalise_name
+from .vocab import Vocabulary, vocabulary_for
 
 EXCLUDED_REGIONS = ("quoted", "forwarded", "attachment")
 
@@ -91,6 +91,25 @@ class Roles:
     principal: Person | None = None  #: someone the signer signs for ("on behalf of X")
     author: Person | None = None  #: a memo's or message's From person
     copied: tuple[Person, ...] = ()
+
+
+@lru_cache(maxsize=64)
+def _schema_cues(fields: tuple[tuple[str, tuple[str, ...]], ...]) -> tuple[list[str], list[list[str]], PhraseSet]:
+    """Every distinct cue of a schema, the fields that use it, and one matcher for them all.
+
+    Occurrences do not overlap: where a longer cue (of any field) covers a shorter one, only
+    the longer one counts.
+    """
+    cues: list[str] = []
+    owners: list[list[str]] = []
+    for name, field_cues in fields:
+        for cue in field_cues:
+            if cue in cues:
+                owners[cues.index(cue)].append(name)
+            else:
+                cues.append(cue)
+                owners.append([name])
+    return cues, owners, PhraseSet(cues, inflect=True)
 
 
 def _anchor_rank(label: str) -> int | None:
@@ -436,24 +455,16 @@ class Analysis:
     @cached_property
     def cue_hits(self) -> dict[str, list[CueHit]]:
         """Where each field's cues occur; a hit inside a longer cue of another field is dropped."""
-        all_hits: list[tuple[str, CueHit]] = []
-        for spec in self.schema.fields:
-            for cue in spec.hints.cues:
-                for start, end in find_phrase(self.text, cue, inflect=True):
-                    all_hits.append((spec.name, CueHit(cue, start, end)))
+        cues, owners, phrases = _schema_cues(tuple((spec.name, spec.hints.cues) for spec in self.schema.fields))
         out: dict[str, list[CueHit]] = {spec.name: [] for spec in self.schema.fields}
-        for name, hit in all_hits:
-            swallowed = any(
-                other != name and o.start <= hit.start and hit.end <= o.end and (o.end - o.start) > (hit.end - hit.start)
-                for other, o in all_hits
-            )
-            if not swallowed:
-                out[name].append(hit)
+        for start, end, index in phrases.find(self.text):
+            for name in owners[index]:
+                out[name].append(CueHit(cues[index], start, end))
         return out
 
     @cached_property
     def vocabularies(self) -> dict[str, Vocabulary]:
-        return {spec.name: Vocabulary(spec.hints) for spec in self.schema.fields if spec.hints.kind in ("choice", "flag")}
+        return {spec.name: vocabulary_for(spec.hints) for spec in self.schema.fields if spec.hints.kind in ("choice", "flag")}
 
     # --- revisions -------------------------------------------------------------------------
 

@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 from decimal import Decimal
 from typing import Any
 
+from .. import patterns
 from ..schema.model import FieldSpec
 from ..types import Alternative, Span
 from .analysis import Analysis
@@ -273,26 +274,34 @@ def read_identifier(an: Analysis, spec: FieldSpec, start: int, end: int) -> list
     out = []
     if pattern is None:
         return read_text(an, spec, start, end)
+    budget = patterns.budget_for(an)
     for match in _COMPOUND.finditer(an.text, start, end):
         raw = match.group()
-        value = _identifier_value(raw, pattern)
+        try:
+            value = _identifier_value(raw, pattern, budget)
+        except patterns.PatternTimeout:
+            # a catastrophic user pattern (catalogue S3): no candidate from it in this
+            # document; the timeout is recorded for the document's ``pattern_timeout`` warning
+            return _missing_list(an, start, end)
         if value is not None:
             flags = frozenset({"separators_normalised"}) if value != raw else frozenset()
             out.append(Reading(value, match.start(), match.end(), 1.0, flags))
     return out or _missing_list(an, start, end)
 
 
-def _identifier_value(raw: str, pattern: re.Pattern[str]) -> str | None:
-    if pattern.fullmatch(raw):
+def _identifier_value(raw: str, pattern: patterns.UserPattern, budget: patterns.Budget | None = None) -> str | None:
+    """``raw`` (or it without separators, upper-cased, dashed) if it matches; raises PatternTimeout."""
+    fullmatch = budget.fullmatch if budget is not None else (lambda p, text: p.fullmatch(text))
+    if fullmatch(pattern, raw):
         return raw
     bare = _ID_SEPARATORS.sub("", raw)
-    if bare != raw and pattern.fullmatch(bare):
+    if bare != raw and fullmatch(pattern, bare):
         return bare
     upper = bare.upper()
-    if upper != bare and pattern.fullmatch(upper) and any(ch.isdigit() for ch in upper):
+    if upper != bare and fullmatch(pattern, upper) and any(ch.isdigit() for ch in upper):
         return upper
     dashed = _ID_SEPARATORS.sub("-", raw)
-    if dashed != raw and pattern.fullmatch(dashed):
+    if dashed != raw and fullmatch(pattern, dashed):
         return dashed
     return None
 

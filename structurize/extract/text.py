@@ -154,6 +154,7 @@ def find_phrase(text: str, phrase: str, *, inflect: bool = False) -> Iterator[tu
 _SUFFIXES = ("ments", "ment", "ions", "ion", "ings", "ing", "ies", "ied", "ed", "es", "s", "e")
 
 
+@lru_cache(maxsize=65536)
 def stem(word: str) -> str:
     """A crude English stem for matching variants: two passes of suffix stripping."""
     word = word.lower().replace("’", "'")
@@ -175,6 +176,40 @@ def _inflected(word: str) -> str:
         return re.escape(word)
     root = stem(word)  # "interviewed" → "interview": also finds "interview by"
     return re.escape(root) + r"(?:e|es|ed|ing|s|er|ers|ion|ions|ment|\w(?:ed|ing))?"
+
+
+class PhraseSet:
+    """Many phrases searched in one pass: one regular expression per case rule.
+
+    ``find(text)`` yields ``(start, end, index)`` for non-overlapping occurrences, leftmost
+    first and, where two phrases start at the same place, the longest; ``index`` is the
+    phrase's position in the list given.  Matching follows :func:`find_phrase`.
+    """
+
+    def __init__(self, phrases: list[str], *, inflect: bool = False) -> None:
+        groups: dict[bool, list[str]] = {True: [], False: []}
+        order = sorted(range(len(phrases)), key=lambda i: -len(phrases[i]))
+        for index in order:
+            pattern = _phrase_regex(phrases[index], inflect)
+            groups[bool(pattern.flags & re.IGNORECASE)].append(f"(?P<p{index}>{pattern.pattern})")
+        self.patterns = [
+            re.compile("|".join(parts), re.IGNORECASE if insensitive else 0) for insensitive, parts in groups.items() if parts
+        ]
+
+    def find(self, text: str, start: int = 0, end: int | None = None) -> list[tuple[int, int, int]]:
+        end = len(text) if end is None else end
+        found = []
+        for pattern in self.patterns:
+            for match in pattern.finditer(text, start, end):
+                found.append((match.start(), match.end(), int(match.lastgroup[1:])))  # type: ignore[index]
+        if len(self.patterns) > 1:
+            found.sort(key=lambda item: (item[0], -(item[1] - item[0])))
+            kept: list[tuple[int, int, int]] = []
+            for item in found:
+                if not kept or item[0] >= kept[-1][1]:
+                    kept.append(item)
+            found = kept
+        return found
 
 
 @lru_cache(maxsize=8192)

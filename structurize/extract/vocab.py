@@ -11,13 +11,13 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
-from functools import cached_property
+from functools import cached_property, lru_cache
 
 from rapidfuzz import fuzz, process
 from rapidfuzz.distance import Levenshtein
 
 from ..schema.model import FieldHints
-from .text import find_phrase, fold, stem
+from .text import PhraseSet, fold, stem
 
 _NEGATION_BEFORE = re.compile(
     r"(?:\b(?:not|no|never|nothing to do with|isn't|wasn't|aren't|weren't|without|rather than|instead of|"
@@ -66,23 +66,38 @@ class Vocabulary:
         self.pairs = tuple(unique)
         self.fuzzy_distance = hints.fuzzy_distance
         self.kind = hints.kind
+        self._phrases = PhraseSet([variant for variant, _ in self.pairs])
+        self._folded = {index: fold(variant) for index, (variant, _) in enumerate(self.pairs)}
+        self._stems = [[stem(word) for word in _WORDS.findall(variant)] for variant, _ in self.pairs]
+        self._recent: dict[bool, tuple[str, list[VocabMention]]] = {}
 
     @cached_property
     def values(self) -> tuple[str, ...]:
         return tuple(dict.fromkeys(value for _, value in self.pairs))
 
     def find(self, text: str, start: int = 0, end: int | None = None, *, loose: bool = True) -> list[VocabMention]:
-        """Mentions in ``text[start:end]`` (offsets into ``text``), longest variant first."""
+        """Mentions in ``text[start:end]`` (offsets into ``text``), in text order.
+
+        A document's text is searched once; later windows of the same text are answered
+        from that search.
+        """
         end = len(text) if end is None else end
+        if len(text) < 200:
+            return self._search(text, start, end, loose)
+        recent = self._recent.get(loose)
+        if recent is None or recent[0] is not text:
+            recent = (text, self._search(text, 0, len(text), loose))
+            self._recent[loose] = recent
+        return [m for m in recent[1] if start <= m.start and m.end <= end]
+
+    def _search(self, text: str, start: int, end: int, loose: bool) -> list[VocabMention]:
         window = text[start:end]
         taken: list[tuple[int, int]] = []
         found: list[VocabMention] = []
-        for variant, value in self.pairs:
-            for s, e in find_phrase(window, variant):
-                if any(s < te and ts < e for ts, te in taken):
-                    continue
-                taken.append((s, e))
-                found.append(self._mention(text, start + s, start + e, value, variant, False))
+        for s, e, index in self._phrases.find(window):
+            variant, value = self.pairs[index]
+            taken.append((s, e))
+            found.append(self._mention(text, start + s, start + e, value, variant, False))
         if loose:
             found.extend(self._loose(text, start, window, taken))
         found.sort(key=lambda m: m.start)
@@ -93,9 +108,11 @@ class Vocabulary:
         ("caring for" finds "to care for"; "relationship with supervisor" finds
         "relationship with the night supervisor")."""
         tokens = [(m.start(), m.end(), stem(m.group())) for m in _WORDS.finditer(window)]
+        first_stems = {token[2] for token in tokens}
         out = []
-        for variant, value in self.pairs:
-            stems = [stem(word) for word in _WORDS.findall(variant)]
+        for (variant, value), stems in zip(self.pairs, self._stems):
+            if not stems or stems[0] not in first_stems:
+                continue
             if not stems or (len(stems) == 1 and len(stems[0]) < 4):
                 continue
             for index, (s, _, first) in enumerate(tokens):
@@ -141,7 +158,7 @@ class Vocabulary:
         target = fold(phrase)
         if not target or self.fuzzy_distance <= 0:
             return []
-        choices = {index: fold(variant) for index, (variant, _) in enumerate(self.pairs)}
+        choices = self._folded
         results = []
         for _, score, index in process.extract(target, choices, scorer=fuzz.ratio, limit=5, score_cutoff=60):
             variant, value = self.pairs[index]
@@ -154,3 +171,9 @@ class Vocabulary:
 def _is_abbreviation(variant: str) -> bool:
     letters = re.sub(r"[^A-Za-z]", "", variant)
     return bool(letters) and letters.isupper() and len(letters) <= 4
+
+
+@lru_cache(maxsize=256)
+def vocabulary_for(hints: FieldHints) -> Vocabulary:
+    """The (shared) vocabulary of a field's hints."""
+    return Vocabulary(hints)
