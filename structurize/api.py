@@ -14,6 +14,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
+from . import patterns
 from .errors import ModelMissing, UsageError
 from .store import Store
 from .extract import extract_candidates
@@ -127,18 +128,64 @@ def discover(root: Path) -> Iterator[tuple[Path, str]]:
     """Files under ``root`` in path order, as ``(path, relative source)``.
 
     Hidden files and folders (names starting with ".") are skipped; everything else is
-    listed, including formats no reader handles (they are reported, not dropped).
+    listed, including formats no reader handles and things that are not regular files
+    (FIFOs, sockets, devices): they are reported by :func:`read_document`, never opened
+    for reading, and not dropped.  The walk never follows a symbolic link to a folder, so
+    link loops cannot hang it.  A link to a regular file inside the input folder is read
+    through its target (the source keeps the link's name); any other link (out of the
+    folder, dangling, a loop) is listed as the link itself, which :func:`read_document`
+    reports as ``symlink_skipped``.
+
+    The source is always printable text, the same in every output and message: bytes that
+    are not UTF-8 become ``\\xNN`` and control or invisible characters (a newline, an ANSI
+    escape, a right-to-left override) their Python escapes (``\\n``, ``\\x1b``,
+    ``\\u202e``), so that no name can break a line, drive a terminal or fail to encode.
     """
-    if root.is_file():
-        yield root, root.name
+    import os
+    import stat
+
+    def shown(parts: tuple[str, ...]) -> str:
+        text = "/".join(os.fsencode(part).decode("utf-8", "backslashreplace") for part in parts)
+        return "".join(ch if ch.isprintable() else ch.encode("unicode_escape").decode("ascii") for ch in text)
+
+    if not root.is_dir():
+        # one file named on purpose: a link to it is followed; anything else is reported
+        yield (Path(os.path.realpath(root)) if root.is_symlink() and root.is_file() else root), shown((root.name,))
         return
-    paths = []
-    for path in root.rglob("*"):
-        relative = path.relative_to(root)
-        if any(part.startswith(".") for part in relative.parts) or not path.is_file():
+    base = os.path.realpath(root)
+    found: list[tuple[str, Path]] = []
+    folders: list[tuple[str, tuple[str, ...]]] = [(str(root), ())]
+    while folders:
+        folder, parts = folders.pop()
+        try:
+            with os.scandir(folder) as entries:
+                listed = list(entries)
+        except OSError:
+            if parts:  # a folder that cannot be listed is reported, not silently dropped
+                found.append((shown(parts), Path(folder)))
             continue
-        paths.append((relative.as_posix(), path))
-    for source, path in sorted(paths):
+        for entry in listed:
+            if entry.name.startswith("."):
+                continue
+            relative = (*parts, entry.name)
+            try:
+                if entry.is_symlink():
+                    target = os.path.realpath(entry.path)
+                    inside = os.path.commonpath([base, target]) == base
+                    info = os.stat(target) if inside else None
+                    if info is not None and stat.S_ISDIR(info.st_mode):
+                        continue  # its files are listed where they really are
+                    if info is not None and stat.S_ISREG(info.st_mode):
+                        found.append((shown(relative), Path(target)))
+                        continue
+                    found.append((shown(relative), Path(entry.path)))  # reported: symlink_skipped
+                elif entry.is_dir(follow_symlinks=False):
+                    folders.append((entry.path, relative))
+                else:
+                    found.append((shown(relative), Path(entry.path)))
+            except (OSError, ValueError, RuntimeError):  # a link loop, a vanished entry
+                found.append((shown(relative), Path(entry.path)))
+    for source, path in sorted(found, key=lambda item: item[0]):
         yield path, source
 
 
@@ -165,8 +212,12 @@ def extract_document(
     started = time.perf_counter()
     doc = read_document(path, source, options)
     status, reason, note = doc.status, doc.reason, doc.note
+    warnings = doc.warnings
     try:
-        values = process_text(doc, schema, ner if ner is not None else ner_for(options), options)
+        with patterns.time_limit(options.limits.regex_seconds), patterns.collect_timeouts() as timed_out:
+            values = process_text(doc, schema, ner if ner is not None else ner_for(options), options)
+        if timed_out:
+            warnings += (patterns.TIMEOUT_WARNING,)
     except (ModelMissing, KeyboardInterrupt):
         raise
     except Exception as exc:  # noqa: BLE001 - an extractor bug must fail one document only
@@ -182,7 +233,7 @@ def extract_document(
         encoding=doc.encoding,
         pages=doc.pages,
         chars=len(doc.text),
-        warnings=doc.warnings,
+        warnings=warnings,
         seconds=time.perf_counter() - started,
         values=values,
     )

@@ -139,6 +139,10 @@ def resolve_field(spec: FieldSpec, candidates: list[Candidate], *, review_below:
         status = ValueStatus.REVIEW
         confidence = min(confidence, review_below - 0.05)
         reasons.append("near miss of a listed value")
+    if "unreadable_characters" in chosen.flags and value is not None:
+        status = ValueStatus.REVIEW
+        confidence = min(confidence, review_below - 0.05)
+        reasons.append("replaced or invisible characters in the source")
     if status is ValueStatus.OK and confidence < review_below:
         status = ValueStatus.REVIEW
         reasons.append("low confidence")

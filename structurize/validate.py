@@ -14,6 +14,7 @@ from dataclasses import replace
 from decimal import Decimal, InvalidOperation
 from typing import Any
 
+from .patterns import TIMEOUT_REASON, PatternTimeout
 from .schema.model import FieldSpec, TargetSchema
 from .types import DocumentResult, FieldValue, ValueStatus
 
@@ -92,8 +93,13 @@ def check_constraints(spec: FieldSpec, value: Any) -> str | None:
         if to_text(value) not in allowed and value not in constraints["enum"]:
             return "not one of the allowed values"
     pattern = spec.pattern
-    if pattern is not None and not pattern.fullmatch(to_text(value)):
-        return f"does not match the pattern {pattern.pattern}"
+    if pattern is not None:
+        try:
+            matched = pattern.fullmatch(to_text(value))
+        except PatternTimeout as exc:  # a catastrophic user pattern: this value only (catalogue S3)
+            return f"{TIMEOUT_REASON}: the pattern took longer than {exc.seconds:g} s"
+        if not matched:
+            return f"does not match the pattern {pattern.pattern}"
     if isinstance(value, (Decimal, int, dt.date)) and not isinstance(value, bool):
         for key, test, words in (
             ("minimum", lambda v, b: v < b, "below the minimum"),

@@ -6,8 +6,17 @@ pandas, the csv module (``encoding="utf-8-sig"``) and frictionless read the mark
 Every text cell that starts with a character a spreadsheet treats as a formula
 (``= + - @``, tab, CR, LF, NUL, per OWASP "CSV Injection" and ASVS 5.0 1.2.10) gets a
 leading apostrophe, and every field is quoted.  Numbers and dates that passed validation
-are written in canonical form and are not prefixed.  Each file is written to a temporary
-file in the same folder, synced, then renamed over the old one.
+are written in canonical form and are not prefixed (a cell of a typed column that is not
+in canonical form, such as the raw text of an invalid value, is guarded like text).  Each
+file is written to a temporary file in the same folder, synced, then renamed over the old
+one.
+
+No writer may crash halfway on what a document contained (RELIABILITY.md §1.9, catalogue
+T11): before anything is written, NUL and the other C0/C1 control characters (except tab,
+line feed and carriage return) and lone surrogates are replaced by U+FFFD in every cell,
+header and descriptor.  ``datapackage.json`` records how many cells were changed
+(``structurize.sanitised_cells``) and that the formula guard is on, and the ``reason`` of
+each changed value in values.csv says so.
 """
 
 from __future__ import annotations
@@ -16,6 +25,7 @@ import csv
 import io
 import json
 import os
+import re
 import tempfile
 from collections.abc import Iterable, Sequence
 from pathlib import Path
@@ -45,6 +55,24 @@ TABLE_SCHEMA_PROFILE = "https://datapackage.org/profiles/2.0/tableschema.json"
 PACKAGE_PROFILE = "https://datapackage.org/profiles/2.0/datapackage.json"
 
 
+#: Characters no cell may carry into an output: C0/C1 controls but tab, LF and CR; DEL; lone
+#: surrogates (from ``surrogateescape`` decoding: no UTF-8 encoder accepts them).
+UNSAFE_CHARACTERS = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\ud800-\udfff]")
+REPLACEMENT = "\ufffd"
+SANITISED_NOTE = "control characters replaced"
+#: Cells of typed columns that are left unguarded: canonical numbers, dates, times, booleans.
+_CANONICAL = re.compile(r"-?\d+(\.\d+)?([eE][+-]?\d+)?|\d{4}-\d{2}-\d{2}([T ][\d:.]+([+-]\d{2}:\d{2}|Z)?)?|true|false")
+
+
+def sanitise(text: str) -> str:
+    """``text`` with every :data:`UNSAFE_CHARACTERS` character replaced by U+FFFD."""
+    return UNSAFE_CHARACTERS.sub(REPLACEMENT, text)
+
+
+def _no_surrogates(text: str) -> str:
+    return re.sub("[\ud800-\udfff]", REPLACEMENT, text)
+
+
 def guard(cell: Any) -> str:
     """A cell as text, with a leading ``'`` if a spreadsheet would read it as a formula."""
     if cell is None:
@@ -66,13 +94,19 @@ def csv_bytes(header: Sequence[str], rows: Iterable[Sequence[Any]], *, bom: bool
     """RFC 4180 CSV as bytes.  ``guarded[i]`` says whether column i gets the formula guard."""
     buffer = io.StringIO(newline="")
     writer = csv.writer(buffer, quoting=csv.QUOTE_ALL, lineterminator="\r\n")
-    writer.writerow([guard(name) for name in header])
+    writer.writerow([guard(sanitise(str(name))) for name in header])
     for row in rows:
-        writer.writerow(
-            [guard(value) if (guarded is None or guarded[i]) else ("" if value is None else str(value)) for i, value in enumerate(row)]
-        )
-    data = buffer.getvalue().encode("utf-8")
+        writer.writerow([guard(value) if (guarded is None or guarded[i]) else _typed(value) for i, value in enumerate(row)])
+    data = _no_surrogates(buffer.getvalue()).encode("utf-8")  # never an UnicodeEncodeError halfway
     return (b"\xef\xbb\xbf" + data) if bom else data
+
+
+def _typed(value: Any) -> str:
+    """A cell of a typed column: canonical values as they are, anything else guarded."""
+    if value is None:
+        return ""
+    text = str(value)
+    return text if not text or _CANONICAL.fullmatch(text) else guard(text)
 
 
 def atomic_write(path: Path, data: bytes) -> None:
@@ -114,9 +148,10 @@ def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = 
     """Write every output file of ``result`` into ``out_dir``; return their paths."""
     out = Path(out_dir)
     schema = result.schema
-    table = pd.DataFrame(result.rows(), columns=["document", *schema.field_names])
-    values = pd.DataFrame(result.values(), columns=VALUES_COLUMNS)
-    documents = pd.DataFrame(result.document_rows(), columns=DOCUMENTS_COLUMNS)
+    counter = _Sanitiser()
+    table = pd.DataFrame(counter.rows(result.rows()), columns=["document", *schema.field_names])
+    values = pd.DataFrame(counter.rows(result.values(), note_in="reason"), columns=VALUES_COLUMNS)
+    documents = pd.DataFrame(counter.rows(result.document_rows()), columns=DOCUMENTS_COLUMNS)
     paths = {
         "table": out / TABLE_FILE,
         "values": out / VALUES_FILE,
@@ -131,9 +166,34 @@ def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = 
     atomic_write(paths["documents"], csv_bytes(documents.columns, _records(documents), bom=bom))
     dictionary = data_dictionary(result)
     atomic_write(paths["dictionary_csv"], csv_bytes(dictionary.columns, _records(dictionary), bom=bom))
-    atomic_write(paths["dictionary"], dictionary_markdown(schema, dictionary).encode("utf-8"))
-    atomic_write(paths["datapackage"], (json.dumps(datapackage(result, bom=bom), indent=2, ensure_ascii=False) + "\n").encode("utf-8"))
+    atomic_write(paths["dictionary"], sanitise(dictionary_markdown(schema, dictionary)).encode("utf-8"))
+    descriptor = datapackage(result, bom=bom)
+    descriptor["structurize"] = {"csv_formula_guard": True, "sanitised_cells": counter.changed}
+    atomic_write(paths["datapackage"], (_no_surrogates(json.dumps(descriptor, indent=2, ensure_ascii=False)) + "\n").encode("utf-8"))
     return paths
+
+
+class _Sanitiser:
+    """Replaces unsafe characters in every string cell and counts the cells it changed."""
+
+    def __init__(self) -> None:
+        self.changed = 0
+
+    def cell(self, value: Any) -> Any:
+        if isinstance(value, str) and UNSAFE_CHARACTERS.search(value):
+            self.changed += 1
+            return sanitise(value)
+        return value
+
+    def rows(self, rows: list[dict[str, Any]], *, note_in: str | None = None) -> list[dict[str, Any]]:
+        out = []
+        for row in rows:
+            clean = {key: self.cell(value) for key, value in row.items()}
+            if note_in is not None and clean.get("value") is not row.get("value"):
+                reason = clean.get(note_in) or ""
+                clean[note_in] = f"{reason}; {SANITISED_NOTE}" if reason else SANITISED_NOTE
+            out.append(clean)
+        return out
 
 
 def _records(frame: pd.DataFrame) -> Iterable[list[Any]]:

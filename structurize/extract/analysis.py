@@ -131,6 +131,11 @@ class Analysis:
         self.text = doc.text
         self.entities = entities
 
+    @cached_property
+    def ocr(self) -> bool:
+        """The text (or part of it) was read by OCR, so every value is less certain."""
+        return bool({"ocr", "ocr_text_layer"} & set(self.doc.warnings))
+
     # --- regions and sentences -------------------------------------------------------
 
     def excluded(self, start: int) -> str | None:

@@ -21,6 +21,7 @@ from __future__ import annotations
 import re
 from collections.abc import Iterator
 
+from ..readers.builder import UNICODE_CONTROLS
 from ..schema.model import FieldSpec
 from ..types import Alternative, Candidate, Span
 from . import kinds
@@ -70,10 +71,16 @@ def _candidate(
         evidence += (f"inside a {region} block",)
     if an.doc.encoding_guessed:
         flags.add("encoding_guessed")
+    if an.ocr:
+        flags.add("ocr")
+    raw = an.text[reading.start : reading.end]
+    if "\ufffd" in raw or UNICODE_CONTROLS.search(raw):
+        flags.add("unreadable_characters")  # a reviewer must see what the value really holds
+        evidence += ("holds replaced or invisible characters",)
     return Candidate(
         field=spec.name,
         value=reading.value,
-        raw=an.text[reading.start : reading.end],
+        raw=raw,
         span=Span(reading.start, reading.end),
         extractor=extractor,
         score=max(0.0, min(1.0, score)),

@@ -263,6 +263,7 @@ _PLACE_WORDS = frozenset(
     street road avenue lane drive court park place square building campus branch unit facility
     co co. company inc inc. ltd llc group services partners team department division""".split()
 )
+_INVISIBLE = dict.fromkeys([0x061C, *range(0x200B, 0x2010), *range(0x202A, 0x202F), *range(0x2060, 0x2065), *range(0x2066, 0x206A)], " ")
 _TITLES = re.compile(r"^(mr|mrs|ms|miss|mx|dr|prof)\.?$", re.IGNORECASE)
 _INITIAL = re.compile(r"^[A-Z]\.$")
 _ROMAN = re.compile(r"^(II|III|IV|Jr\.?|Sr\.?)$")
@@ -284,6 +285,7 @@ def leading_name(text: str, offset: int = 0, max_tokens: int = 4) -> tuple[int, 
     Courtesy titles are skipped; the name stops at punctuation, a lower-case word (other
     than a particle such as "de" or "van"), a digit or a dash between spaces.
     """
+    text = text.translate(_INVISIBLE)  # zero-width and bidi controls count as spaces; offsets stay
     tokens: list[tuple[int, int, str]] = []
     position = 0
     for match in _TOKEN.finditer(text):

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 import unicodedata
 from collections.abc import Sequence
 
@@ -11,8 +12,19 @@ from ..types import Document, Header, Region, Span, Table
 CELL_SEPARATOR = " | "
 
 
+#: Lone surrogates (from ``surrogateescape`` decoding upstream): no encoder accepts them.
+SURROGATES = re.compile("[\ud800-\udfff]")
+#: Characters that change how text *looks* without being visible: bidirectional embeddings,
+#: overrides and isolates, and zero-width characters ("Trojan Source", CVE-2021-42574;
+#: Unicode TR #36).  They are kept, so that spans stay verbatim, and flagged.
+UNICODE_CONTROLS = re.compile("[\u061c\u200b-\u200f\u202a-\u202e\u2060-\u2064\u2066-\u2069]")
+
+
 def clean(text: str) -> str:
-    """NFC-normalise and drop characters that only hide text (NUL, zero-width no-break)."""
+    """NFC-normalise, drop characters that only hide text (NUL, zero-width no-break), and
+    replace lone surrogates with U+FFFD."""
+    if SURROGATES.search(text):
+        text = SURROGATES.sub("\ufffd", text)
     text = unicodedata.normalize("NFC", text)
     return text.replace("\x00", "").replace("\ufeff", "")
 
@@ -30,6 +42,10 @@ class TextBuilder:
         self.page_starts: list[int] = []
         self.warnings: list[str] = []
 
+    def _warn(self, name: str) -> None:
+        if name not in self.warnings:
+            self.warnings.append(name)
+
     @property
     def offset(self) -> int:
         return self._length
@@ -44,7 +60,11 @@ class TextBuilder:
 
     def add_line(self, text: str) -> Span:
         """Append one line (newlines inside ``text`` are turned into spaces)."""
+        if SURROGATES.search(text):
+            self._warn("invalid_characters")
         text = clean(text).replace("\r", " ").replace("\n", " ")
+        if UNICODE_CONTROLS.search(text):
+            self._warn("unicode_controls")
         start = self._length
         self._append(text + "\n")
         span = Span(start, start + len(text))

@@ -5,6 +5,7 @@ from __future__ import annotations
 import codecs
 import re
 from dataclasses import dataclass
+from pathlib import Path
 
 from ..errors import ReadFailure
 
@@ -19,7 +20,8 @@ _BOMS = (
     (codecs.BOM_UTF16_BE, "utf-16"),
 )
 #: UTF-8 text that was decoded as cp1252/latin-1 somewhere upstream ("JosÃ©", "â€™").
-_MOJIBAKE = re.compile("[ÃÂ][\u0080-\u00bf]|â€[\u0080-\u00ff™œ]|\ufffd")
+MOJIBAKE = re.compile("[ÃÂ][\u0080-\u00bf]|â€[\u0080-\u00ff™œ]|\ufffd")
+_MOJIBAKE = MOJIBAKE
 
 
 @dataclass(frozen=True)
@@ -57,3 +59,42 @@ def _finish(text: str, encoding: str, *, guessed: bool) -> Decoded:
     if _MOJIBAKE.search(text):
         warnings.append("suspect_mojibake")
     return Decoded(text.replace("\r\n", "\n").replace("\r", "\n"), encoding, guessed, tuple(warnings))
+
+
+def read_limited(path: Path, limit: int) -> bytes:
+    """The bytes of ``path``, or ``failed: too_large`` past ``limit`` without reading it all.
+
+    The size is checked before reading, and the read itself stops one byte past the limit,
+    so a file that grows (or lies about its size) costs at most ``limit`` bytes of memory.
+    """
+    if path.stat().st_size > limit:
+        raise _too_large(limit)
+    with path.open("rb") as handle:
+        data = handle.read(limit + 1)
+    if len(data) > limit:
+        raise _too_large(limit)
+    return data
+
+
+def _too_large(limit: int) -> ReadFailure:
+    shown = f"{limit / (1024 * 1024):g} MB" if limit >= 1024 * 1024 else f"{limit} bytes"
+    return ReadFailure("failed", "too_large", f"the file is larger than the limit ({shown})")
+
+
+def decode_fallback(data: bytes, declared: str, fallbacks: tuple[str, ...] = DEFAULT_FALLBACK_ENCODINGS) -> tuple[str, str]:
+    """Decode bytes whose declared charset is unknown or wrong; never raises.
+
+    Tries the declared charset's first word ("utf-8 junk" → ``utf-8``), strict UTF-8, then
+    each fallback; the last resort is UTF-8 with U+FFFD for what does not decode.  Returns
+    the text and the encoding used.
+    """
+    words = declared.strip().strip("\"'").split()
+    first = words[0].lower() if words else ""
+    for encoding in dict.fromkeys([first, "utf-8", *fallbacks]):
+        if not encoding:
+            continue
+        try:
+            return data.decode(encoding), codecs.lookup(encoding).name
+        except (UnicodeDecodeError, LookupError, ValueError, TypeError):  # "embedded null character" ...
+            continue
+    return data.decode("utf-8", errors="replace"), "utf-8"

@@ -2,7 +2,9 @@
 
 Block elements end lines, entities are decoded, ``<table>`` rows become table structure,
 and form controls are shown as text: a ticked checkbox or radio button as ``[x]``, an
-unticked one as ``[ ]``, a text input as its value.
+unticked one as ``[ ]``, a text input as its value.  Markup in the text (``&lt;script&gt;``,
+``{{7*7}}``) stays literal text; script, style and template content is dropped.  A file
+larger than ``limits.text_bytes`` is ``failed: too_large``.
 """
 
 from __future__ import annotations
@@ -13,7 +15,7 @@ from pathlib import Path
 from ..options import ExtractOptions
 from ..types import Document
 from .builder import TextBuilder
-from .decode import decode_bytes
+from .decode import decode_bytes, read_limited
 
 _BLOCK = {
     "address", "article", "aside", "blockquote", "body", "dd", "div", "dl", "dt", "fieldset",
@@ -124,6 +126,15 @@ class _Converter(HTMLParser):
         if not self.skip_depth:
             self._emit(data)
 
+    def parse_marked_section(self, i: int, report: int = 1) -> int:
+        """``<![...`` with a keyword the stdlib does not know raises AssertionError (3.11);
+        browsers treat it as a bogus comment, and so does this: skip to its ``>``."""
+        try:
+            return super().parse_marked_section(i, report)
+        except AssertionError:
+            end = self.rawdata.find(">", i + 3)
+            return -1 if end < 0 else end + 1
+
     def _flush_or_break(self) -> None:
         if self.cell is None:
             self._flush()
@@ -150,7 +161,7 @@ def html_to_builder(html: str, builder: TextBuilder) -> None:
 
 
 def read_html(path: Path, source: str, options: ExtractOptions) -> Document:
-    decoded = decode_bytes(path.read_bytes(), options.encodings)
+    decoded = decode_bytes(read_limited(path, options.limits.text_bytes), options.encodings)
     builder = TextBuilder()
     html_to_builder(decoded.text, builder)
     return builder.build(

@@ -6,6 +6,17 @@ Subject), decoded per RFC 2047 and unfolded, each header also kept as a structur
 there is one, otherwise the HTML part converted to text.  Quoted replies and forwarded
 messages inside the body are marked as regions, so that fields describe this message and
 never the headers quoted in it.
+
+Hostile messages (RELIABILITY.md §1.7, catalogue E1–E5) are bounded before the stdlib parser
+sees them: the file is streamed through :func:`bounded_message`, which drops the content of
+any MIME part larger than ``limits.email_part_bytes`` (warning ``attachment_skipped``; the
+rest of the message is still read) and stops at ``limits.email_parts`` parts or
+``limits.email_depth`` levels of nesting (``partial: mime_limits``; what came before is
+read).  A body in an unknown charset is decoded with a fallback (warning
+``unknown_charset``, and the document's encoding counts as guessed, which lowers the
+confidence of its values); undecodable encoded words in headers become U+FFFD with the
+warning ``header_decode``.  Attachments are never written anywhere, under their declared
+names or any other.
 """
 
 from __future__ import annotations
@@ -14,16 +25,17 @@ import datetime
 import email
 import email.policy
 import re
-from email.errors import HeaderParseError
+from dataclasses import dataclass
 from email.header import decode_header, make_header
 from email.utils import getaddresses
 from email.message import EmailMessage
 from pathlib import Path
 
 from ..errors import ReadFailure
-from ..options import ExtractOptions
-from ..types import Address, Document, Header, Region, Span
-from .builder import TextBuilder
+from ..options import ExtractOptions, Limits
+from ..types import Address, Document, DocStatus, Header, Region, Span
+from .builder import TextBuilder, clean
+from .decode import MOJIBAKE, decode_fallback
 from .html import html_to_builder
 
 HEADER_ORDER = ("From", "Sender", "Reply-To", "To", "Cc", "Date", "Subject")
@@ -38,31 +50,70 @@ _OUTLOOK_NEXT = re.compile(r"^\s*(Sent|Date|To|Subject):\s", re.IGNORECASE)
 
 
 def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
-    raw = path.read_bytes()
+    bounded = bounded_message(path, options.limits)
+    raw = bounded.data
     if not raw.strip():
         raise ReadFailure("failed", "empty_file", "the file is empty")
     message = email.message_from_bytes(raw, policy=email.policy.default)
-    if not isinstance(message, EmailMessage) or not any(message.get(name) for name in ("From", "To", "Date", "Subject")):
+    raw_headers = [(key.lower(), str(value)) for key, value in message.raw_items()] if isinstance(message, EmailMessage) else []
+    present = {key for key, value in raw_headers if value.strip()}
+    if not present & {"from", "to", "date", "subject"}:
         raise ReadFailure("failed", "not_an_email", "no message headers found")
     builder = TextBuilder()
     warnings: list[str] = []
-    raw_headers = [(key.lower(), str(value)) for key, value in message.raw_items()]
     for name in HEADER_ORDER:
         raws = [value for key, value in raw_headers if key == name.lower()]
-        for index, value in enumerate(message.get_all(name, []) or []):
+        try:
+            values = list(message.get_all(name, []) or [])
+        except Exception:  # noqa: BLE001 - the stdlib's header parser raises many types (fuzzed)
+            _add_raw_headers(builder, name, raws, warnings)
+            continue
+        for index, value in enumerate(values):
             _add_header(builder, name, value, warnings, raws[index] if index < len(raws) else "")
     builder.blank()
     body_start = builder.offset
-    _add_body(builder, message, warnings)
+    fallback = _add_body(builder, message, warnings, options)
     _mark_quotes(builder, body_start)
-    if message.defects:
+    if _has_defects(message, options.limits):
         warnings.append("email_defects")
-    return builder.build(source, "reader.email.v1", encoding="utf-8", warnings=tuple(warnings))
+    if bounded.skipped:
+        warnings.append("attachment_skipped")
+    status, reason, note = DocStatus.OK, "", ""
+    if bounded.limit_hit:
+        warnings.append("mime_limits")
+        status, reason, note = DocStatus.PARTIAL, "mime_limits", f"the message has {bounded.limit_hit}; the rest was not read"
+    return builder.build(
+        source,
+        "reader.email.v1",
+        encoding=fallback or "utf-8",
+        encoding_guessed=fallback is not None,
+        warnings=tuple(warnings),
+        status=status,
+        reason=reason,
+        note=note,
+    )
+
+
+def _has_defects(message: EmailMessage, limits: Limits) -> bool:
+    """Defects anywhere in the (already bounded) MIME tree, walked without recursion."""
+    todo = [message]
+    seen = 0
+    while todo and seen <= limits.email_parts + 1:
+        part = todo.pop()
+        seen += 1
+        if part.defects:
+            return True
+        payload = part.get_payload() if part.is_multipart() else None
+        if isinstance(payload, list):
+            todo.extend(item for item in payload if isinstance(item, EmailMessage))
+    return False
 
 
 def _add_header(builder: TextBuilder, name: str, value: object, warnings: list[str], raw: str) -> None:
     prefix = f"{name}: "
     value_start = builder.offset + len(prefix)
+    if _badly_decoded(value, raw):
+        warnings.append("header_decode")
     groups = ()
     if name in _ADDRESS_HEADERS:
         try:
@@ -86,6 +137,28 @@ def _add_header(builder: TextBuilder, name: str, value: object, warnings: list[s
         else:
             when = _rfc5322_year(when, raw)
     builder.headers.append(Header(name, Span(value_start, span.end), date=when))
+
+
+def _add_raw_headers(builder: TextBuilder, name: str, raws: list[str], warnings: list[str]) -> None:
+    """Headers the stdlib cannot parse: their raw text, unfolded, without structure."""
+    warnings.append("bad_address_header" if name in _ADDRESS_HEADERS else "bad_date_header" if name == "Date" else "header_decode")
+    prefix = f"{name}: "
+    for raw in raws:
+        value_start = builder.offset + len(prefix)
+        span = builder.add_line(prefix + " ".join(raw.split()))
+        builder.headers.append(Header(name, Span(value_start, span.end)))
+
+
+def _badly_decoded(value: object, raw: str) -> bool:
+    """An encoded word (RFC 2047) or raw 8-bit text that did not decode cleanly."""
+    text = str(value)
+    if "\ufffd" in text or any("\udc80" <= ch <= "\udcff" for ch in text):
+        return True
+    defects = getattr(value, "defects", ()) or ()
+    return "=?" in raw and any(type(defect).__name__ in _HEADER_DEFECTS for defect in defects)
+
+
+_HEADER_DEFECTS = {"CharsetError", "UndecodableBytesDefect", "InvalidBase64CharactersDefect", "InvalidBase64PaddingDefect", "InvalidBase64LengthDefect"}
 
 
 _OBSOLETE_YEAR = re.compile(r"\b\d{1,2}\s+[A-Za-z]{3}\s+(\d{2,3})\s")
@@ -124,7 +197,7 @@ def _encoded_names(raw: str) -> dict[str, str]:
         if "=?" in phrase:
             try:
                 names[address.lower()] = str(make_header(decode_header(phrase)))
-            except (LookupError, UnicodeError, ValueError, HeaderParseError):
+            except Exception:  # noqa: BLE001 - LookupError, CharsetError, HeaderParseError ... (fuzzed)
                 continue
     return names
 
@@ -147,8 +220,8 @@ def _render_groups(groups: tuple, start: int, decoded: dict[str, str]) -> tuple[
         for index, address in enumerate(group.addresses):
             if index:
                 put(", ")
-            addr = address.addr_spec or ""
-            display = decoded.get(addr.lower(), address.display_name or "")
+            addr = clean(address.addr_spec or "")
+            display = clean(decoded.get(addr.lower(), address.display_name or ""))  # lone surrogates → U+FFFD
             if display:
                 at = put(f"{display} <{addr}>")
                 name_span = Span(at, at + len(display))
@@ -162,27 +235,158 @@ def _render_groups(groups: tuple, start: int, decoded: dict[str, str]) -> tuple[
     return "".join(out), tuple(addresses)
 
 
-def _add_body(builder: TextBuilder, message: EmailMessage, warnings: list[str]) -> None:
+def _add_body(builder: TextBuilder, message: EmailMessage, warnings: list[str], options: ExtractOptions) -> str | None:
+    """Append the body text; return the fallback encoding when the declared charset failed."""
     try:
         part = message.get_body(preferencelist=("plain", "html"))
     except Exception:
         part = None
         warnings.append("bad_mime_structure")
     if part is None:
-        return
+        return None
+    fallback = None
     try:
         content = part.get_content()
-    except (LookupError, UnicodeError, AssertionError, ValueError):
-        payload = part.get_payload(decode=True) or b""
-        content = payload.decode("latin-1", errors="replace") if isinstance(payload, bytes) else str(payload)
+    except (LookupError, UnicodeError, AssertionError, ValueError, TypeError):
+        try:
+            payload = part.get_payload(decode=True) or b""
+        except Exception:  # noqa: BLE001 - a broken transfer encoding
+            payload = b""
+        if not isinstance(payload, bytes):
+            payload = str(payload).encode("utf-8", errors="replace")
+        content, fallback = decode_fallback(payload, _declared_charset(part), options.encodings)
         warnings.append("unknown_charset")
     if not isinstance(content, str):
-        return
+        return fallback
+    if MOJIBAKE.search(content):
+        warnings.append("suspect_mojibake")
     content = content.replace("\r\n", "\n").replace("\r", "\n")
     if part.get_content_subtype() == "html":
         html_to_builder(content, builder)
     else:
         builder.add_text(content.rstrip("\n"))
+    return fallback
+
+
+def _declared_charset(part: EmailMessage) -> str:
+    try:
+        return str(part.get_param("charset", "") or "")
+    except Exception:  # noqa: BLE001 - RFC 2231 oddities (CPython gh-80361)
+        return ""
+
+
+# --- bounding the message before parsing -------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Bounded:
+    """The bytes of a message with oversized parts emptied, and what was left out."""
+
+    data: bytes
+    skipped: int  #: parts whose content was dropped for size
+    limit_hit: str  #: "" or which limit stopped the read ("more than 1000 MIME parts")
+
+
+_LINE = 1 << 16  #: bytes read at a time; a line longer than this is read in pieces
+_HEADER_BLOCK_BYTES = 1 << 20
+_BOUNDARY = re.compile(rb'boundary\s*=\s*(?:"([^"\r\n]{1,200})"|([^\s;"]{1,200}))', re.IGNORECASE)
+_CONTENT_TYPE = re.compile(rb"^content-type\s*:\s*([a-z0-9!#$&^_.+-]+/[a-z0-9!#$&^_.+-]+)", re.IGNORECASE | re.MULTILINE)
+
+
+def bounded_message(path: Path, limits: Limits) -> Bounded:
+    """Stream ``path`` and keep what the MIME limits allow (RELIABILITY.md §1.7, E4/E5).
+
+    A light MIME scan follows the boundaries declared in each header block: a part's
+    content is buffered up to ``limits.email_part_bytes`` and dropped (headers kept) when it
+    grows past that; parts beyond ``limits.email_parts`` or nested deeper than
+    ``limits.email_depth`` end the read there.  A message within the limits comes back byte
+    for byte, so the stdlib parser sees exactly the file.
+    """
+    out = bytearray()
+    skipped = 0
+    limit_hit = ""
+    #: open nesting levels, outermost first: a multipart's delimiter ("--" + boundary), or
+    #: None for an enclosed message (message/rfc822), which ends with its enclosing part
+    levels: list[bytes | None] = []
+    parts = 0
+    in_headers = True  #: the next lines are a header block (of the message or of a part)
+    header = bytearray()
+    body = bytearray()
+    dropping = False
+    at_line_start = True
+
+    def end_headers() -> None:
+        nonlocal in_headers, limit_hit
+        block = bytes(header)
+        out.extend(block)
+        header.clear()
+        in_headers = False
+        unfolded = re.sub(rb"\r?\n[ \t]+", b" ", block)
+        kind = _CONTENT_TYPE.search(unfolded)
+        media = kind.group(1).lower() if kind else b"text/plain"
+        if media.startswith(b"multipart/"):
+            found = _BOUNDARY.search(unfolded)
+            if found:
+                levels.append(b"--" + (found.group(1) or found.group(2)))
+        elif media == b"message/rfc822":
+            levels.append(None)
+            in_headers = True  # the part's content starts with the enclosed message's headers
+        if len(levels) > limits.email_depth:
+            limit_hit = f"more than {limits.email_depth} levels of nesting"
+
+    def end_body() -> None:
+        nonlocal dropping
+        if not dropping:
+            out.extend(body)
+        body.clear()
+        dropping = False
+
+    with path.open("rb") as handle:
+        while not limit_hit:
+            piece = handle.readline(_LINE)
+            if not piece:
+                break
+            line_start, at_line_start = at_line_start, piece.endswith(b"\n")
+            if line_start and piece.startswith(b"--") and any(levels):
+                delimiter = piece.rstrip(b"\r\n").rstrip(b" \t")
+                level = next(
+                    (i for i in range(len(levels) - 1, -1, -1) if levels[i] is not None and delimiter.startswith(levels[i])),  # type: ignore[arg-type]
+                    None,
+                )
+                if level is not None and delimiter[len(levels[level]) :] in (b"", b"--"):  # type: ignore[arg-type]
+                    closing = delimiter.endswith(b"--") and len(delimiter) == len(levels[level]) + 2  # type: ignore[arg-type]
+                    if in_headers:
+                        out.extend(header)
+                        header.clear()
+                    end_body()
+                    out.extend(piece)
+                    del levels[level + 1 :]
+                    if closing:
+                        levels.pop()
+                        in_headers = False
+                    else:
+                        parts += 1
+                        if parts > limits.email_parts:
+                            limit_hit = f"more than {limits.email_parts} MIME parts"
+                            break
+                        in_headers = True
+                    continue
+            if in_headers:
+                header.extend(piece)
+                if (line_start and piece in (b"\r\n", b"\n")) or len(header) > _HEADER_BLOCK_BYTES:
+                    end_headers()
+                continue
+            if dropping:
+                continue
+            body.extend(piece)
+            if len(body) > limits.email_part_bytes:
+                body.clear()
+                dropping = True
+                skipped += 1
+    if in_headers:
+        out.extend(header)
+    end_body()
+    return Bounded(bytes(out), skipped, limit_hit)
 
 
 def _mark_quotes(builder: TextBuilder, body_start: int) -> None:

@@ -1,4 +1,8 @@
-"""Plain text (.txt) and Markdown (.md).  Markdown pipe tables are kept as structure."""
+"""Plain text (.txt) and Markdown (.md).  Markdown pipe tables are kept as structure.
+
+A file larger than ``limits.text_bytes`` is ``failed: too_large``, found without reading it
+whole (catalogue T5).
+"""
 
 from __future__ import annotations
 
@@ -8,7 +12,7 @@ from pathlib import Path
 from ..options import ExtractOptions
 from ..types import Document, Span, Table
 from .builder import TextBuilder
-from .decode import decode_bytes
+from .decode import decode_bytes, read_limited
 
 _TABLE_RULE = re.compile(r"^\s*\|?\s*:?-{2,}:?\s*(\|\s*:?-{2,}:?\s*)*\|?\s*$")
 
@@ -22,7 +26,7 @@ def read_markdown(path: Path, source: str, options: ExtractOptions) -> Document:
 
 
 def _read(path: Path, source: str, options: ExtractOptions, *, reader: str, markdown: bool) -> Document:
-    decoded = decode_bytes(path.read_bytes(), options.encodings)
+    decoded = decode_bytes(read_limited(path, options.limits.text_bytes), options.encodings)
     builder = TextBuilder()
     builder.add_text(decoded.text)
     doc = builder.build(

@@ -8,9 +8,14 @@ huge tree through aliases is refused.
 
 from __future__ import annotations
 
+import bisect
+import datetime as dt
 import difflib
 import json
+import os
 import re
+import stat
+import unicodedata
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -18,6 +23,7 @@ from typing import Any
 import yaml
 
 from ..errors import SchemaError
+from ..patterns import PatternError, UserPattern, compile_pattern
 from .model import (
     DATE_ORDERS,
     DEFAULT_FUZZY_DISTANCE,
@@ -32,6 +38,20 @@ from .model import (
 MAX_SCHEMA_BYTES = 1_000_000
 #: Upper bound on YAML nodes after alias expansion (refuses "billion laughs").
 MAX_EXPANDED_NODES = 100_000
+#: Upper bound on YAML aliases (``*name``) in one file (RELIABILITY.md §5).
+MAX_ALIASES = 100
+#: Upper bound on nested mappings and lists, YAML or JSON.
+MAX_DEPTH = 100
+#: Longest field name accepted.
+MAX_NAME_LENGTH = 200
+#: First characters a spreadsheet reads as the start of a formula (a field name is a column header).
+FORMULA_STARTS = ("=", "+", "-", "@")
+#: Column names the outputs use themselves (table.csv's first column).
+RESERVED_NAMES = ("document",)
+#: YAML tags a schema may carry explicitly; anything else (``!!python/...``, ``!local``) is refused.
+ALLOWED_TAGS = frozenset(
+    f"tag:yaml.org,2002:{name}" for name in ("str", "int", "float", "bool", "null", "seq", "map")
+)
 
 FIELD_EXTRACT_KEYS = ("as", "cues", "aliases", "pattern", "fuzzy_distance")
 SCHEMA_EXTRACT_KEYS = ("date_order", "review_below", "fuzzy_distance", "time_limit", "memory_limit")
@@ -46,6 +66,16 @@ CONSTRAINT_KEYS = (
     "exclusiveMaximum",
     "minLength",
     "maxLength",
+)
+#: Keys Table Schema (and this tool) define on a field and at the top level.  Other keys
+#: are kept and written back, but one that looks like a misspelling of these is an error.
+FIELD_KEYS = (
+    "name", "title", "description", "type", "format", "example", "constraints", "rdfType",
+    "missingValues", "trueValues", "falseValues", "bareNumber", "groupChar", "decimalChar", "extract",
+)
+SCHEMA_KEYS = (
+    "name", "title", "description", "fields", "primaryKey", "foreignKeys", "missingValues",
+    "extract", "$schema", "profile", "version", "fieldsMatch", "uniqueKeys",
 )
 #: The kind a field gets when its ``extract.as`` is absent, by Table Schema type.
 DEFAULT_KIND_FOR_TYPE = {
@@ -63,17 +93,9 @@ Locate = Callable[[tuple[Any, ...]], str]
 def load_schema(path: str | Path) -> TargetSchema:
     """Load and validate the schema file at ``path``."""
     path = Path(path)
-    source = path.name
-    try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise SchemaError(source, "", f"cannot read file ({exc.strerror or exc})") from None
-    if len(raw) > MAX_SCHEMA_BYTES:
-        raise SchemaError(source, "", f"file is larger than {MAX_SCHEMA_BYTES} bytes")
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        raise SchemaError(source, "", "file is not UTF-8 text") from None
+    source = _shown(path.name)
+    raw = _read_bounded(path, source)
+    text = _decode(raw, source)
     if path.suffix.lower() == ".json":
         data, locate = _parse_json(text, source)
     else:
@@ -81,14 +103,100 @@ def load_schema(path: str | Path) -> TargetSchema:
     return schema_from_descriptor(data, source=source, locate=locate)
 
 
+def _read_bounded(path: Path, source: str) -> bytes:
+    """The file's bytes, at most :data:`MAX_SCHEMA_BYTES`; only a regular file is opened for reading.
+
+    The file is opened without blocking and checked on the open descriptor, so a FIFO or a
+    device named ``schema.yaml`` is refused instead of hanging the run.
+    """
+    try:
+        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_CLOEXEC", 0))
+    except OSError as exc:
+        raise SchemaError(source, "", f"cannot read file ({exc.strerror or type(exc).__name__})") from None
+    try:
+        info = os.fstat(fd)
+        if not stat.S_ISREG(info.st_mode):
+            raise SchemaError(source, "", "not a regular file")
+        if info.st_size > MAX_SCHEMA_BYTES:
+            raise SchemaError(source, "", f"file is larger than {MAX_SCHEMA_BYTES} bytes")
+        chunks: list[bytes] = []
+        size = 0
+        while size <= MAX_SCHEMA_BYTES:
+            chunk = os.read(fd, min(1 << 16, MAX_SCHEMA_BYTES + 1 - size))
+            if not chunk:
+                break
+            chunks.append(chunk)
+            size += len(chunk)
+    except OSError as exc:
+        raise SchemaError(source, "", f"cannot read file ({exc.strerror or type(exc).__name__})") from None
+    finally:
+        os.close(fd)
+    if size > MAX_SCHEMA_BYTES:  # it grew while being read
+        raise SchemaError(source, "", f"file is larger than {MAX_SCHEMA_BYTES} bytes")
+    return b"".join(chunks)
+
+
+def _decode(raw: bytes, source: str) -> str:
+    if not raw.strip(b" \t\r\n\xef\xbb\xbf"):
+        raise SchemaError(source, "", "file is empty")
+    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
+        raise SchemaError(source, "", "file is UTF-16 text; save it as UTF-8")
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw.count(b"\n", 0, exc.start) + 1
+        raise SchemaError(source, f"line {line}", "file is not UTF-8 text (binary data, or another encoding)") from None
+    if "\x00" in text:
+        line = text.count("\n", 0, text.index("\x00")) + 1
+        raise SchemaError(source, f"line {line}", "file holds NUL characters (binary data?)")
+    return text
+
+
 def schema_from_descriptor(
     data: Any, *, source: str = "<schema>", locate: Locate | None = None
 ) -> TargetSchema:
     """Validate an already-parsed descriptor (a dict) and build the schema."""
-    return _Checker(source, locate or (lambda path: "")).schema(data)
+    checker = _Checker(source, locate or (lambda path: ""))
+    _check_values(data, checker)
+    return checker.schema(data)
+
+
+#: Integers at or above this size cannot even be printed (Python's 4,300-digit limit, §1.9).
+_HUGE = 10**4000
+_PLAIN = (str, bool, float, type(None), dt.date)
+
+
+def _check_values(data: Any, checker: _Checker) -> None:
+    """Only JSON-like data: string keys, bounded nesting, printable numbers (iterative, any depth)."""
+    stack: list[tuple[Any, tuple[Any, ...]]] = [(data, ())]
+    while stack:
+        value, path = stack.pop()
+        if len(path) > MAX_DEPTH:
+            raise checker.fail(path[:MAX_DEPTH], f"nesting is deeper than {MAX_DEPTH} levels")
+        if isinstance(value, dict):
+            for key, item in value.items():
+                # YAML may read keys as booleans (flag aliases: true/false) or numbers
+                if not isinstance(key, (str, bool, int, float, type(None))):
+                    raise checker.fail(path, f"keys must be strings, not {type(key).__name__}")
+                if isinstance(key, int) and not -_HUGE < key < _HUGE:
+                    raise checker.fail(path, "number has too many digits")
+                stack.append((item, (*path, key)))
+        elif isinstance(value, (list, tuple)):
+            stack.extend((item, (*path, index)) for index, item in enumerate(value))
+        elif isinstance(value, int):
+            if not -_HUGE < value < _HUGE:
+                raise checker.fail(path, "number has too many digits")
+        elif not isinstance(value, _PLAIN):
+            raise checker.fail(path, f"unsupported value of type {type(value).__name__}")
 
 
 # --- parsing -------------------------------------------------------------------------
+
+
+class _DuplicateKey(Exception):
+    def __init__(self, key: str) -> None:
+        super().__init__(key)
+        self.key = key
 
 
 def _parse_json(text: str, source: str) -> tuple[Any, Locate]:
@@ -96,42 +204,166 @@ def _parse_json(text: str, source: str) -> tuple[Any, Locate]:
         result: dict[str, Any] = {}
         for key, value in pairs:
             if key in result:
-                raise SchemaError(source, "", f"duplicate key {key!r}")
+                raise _DuplicateKey(key)
             result[key] = value
         return result
 
+    duplicate: str | None = None
     try:
-        return json.loads(text, object_pairs_hook=no_duplicates), (lambda path: "")
+        data = json.loads(text, object_pairs_hook=no_duplicates)
     except json.JSONDecodeError as exc:
-        raise SchemaError(source, f"line {exc.lineno}", f"not valid JSON ({exc.msg})") from None
+        raise SchemaError(source, f"line {exc.lineno}, column {exc.colno}", f"not valid JSON ({exc.msg})") from None
     except RecursionError:
         raise SchemaError(source, "", "nesting is too deep") from None
+    except _DuplicateKey as exc:
+        data, duplicate = None, exc.key  # the layout scan below names the key and its line
+    except ValueError as exc:  # a number over Python's 4,300-digit limit, for one
+        raise SchemaError(source, "", f"not valid JSON ({_one_line(exc)})") from None
+    lines = _json_layout(text, source)  # duplicates and depth, with lines
+    if duplicate is not None:
+        raise SchemaError(source, "", f"duplicate key {duplicate!r}")
+
+    def locate(path: tuple[Any, ...]) -> str:
+        for end in range(len(path), 0, -1):
+            line = lines.get(tuple(path[:end]))
+            if line is not None:
+                return f"line {line}"
+        return ""
+
+    return data, locate
+
+
+#: One JSON token of a valid document: a string, a punctuation mark, or a bare literal.
+_JSON_TOKEN = re.compile(r'"(?:[^"\\]|\\.)*"|[{}\[\]:,]|[^\s{}\[\]:,"]+')
+
+
+def _json_layout(text: str, source: str) -> dict[tuple[Any, ...], int]:
+    """The line of every value of a valid JSON text, by path; refuses duplicate keys and deep nesting.
+
+    Iterative (no recursion), so any nesting depth gives a clean error.
+    """
+    starts = [0] + [m.end() for m in re.finditer("\n", text)]
+
+    def line_of(offset: int) -> int:
+        return bisect.bisect_right(starts, offset)
+
+    lines: dict[tuple[Any, ...], int] = {}
+    # frames: [is_object, path, key or index, expecting a key, keys seen]
+    stack: list[list[Any]] = []
+
+    def here() -> tuple[Any, ...]:
+        if not stack:
+            return ()
+        frame = stack[-1]
+        return (*frame[1], frame[2])
+
+    for match in _JSON_TOKEN.finditer(text):
+        token = match.group()
+        offset = match.start()
+        if token in ("{", "["):
+            path = here()
+            lines.setdefault(path, line_of(offset))
+            if len(stack) >= MAX_DEPTH:
+                raise SchemaError(source, f"line {line_of(offset)}", f"nesting is deeper than {MAX_DEPTH} levels")
+            stack.append([token == "{", path, 0 if token == "[" else None, token == "{", set()])
+        elif token in ("}", "]"):
+            if stack:
+                stack.pop()
+        elif token == ",":
+            if stack:
+                frame = stack[-1]
+                if frame[0]:
+                    frame[3] = True
+                else:
+                    frame[2] += 1
+        elif token == ":":
+            continue
+        elif stack and stack[-1][0] and stack[-1][3]:
+            frame = stack[-1]
+            try:
+                key = json.loads(token)
+            except ValueError:
+                key = token
+            if key in frame[4]:
+                raise SchemaError(source, f"line {line_of(offset)}", f"duplicate key {key!r}")
+            frame[4].add(key)
+            frame[2] = key
+            frame[3] = False
+        else:
+            lines.setdefault(here(), line_of(offset))
+    return lines
+
+
+def _one_line(text: object) -> str:
+    return " ".join(str(text).split())
+
+
+def _mark(mark: Any) -> str:
+    return f"line {mark.line + 1}, column {mark.column + 1}" if mark is not None else ""
 
 
 def _parse_yaml(text: str, source: str) -> tuple[Any, Locate]:
+    _scan_yaml_events(text, source)
     try:
         root = yaml.compose(text, Loader=yaml.SafeLoader)
     except yaml.MarkedYAMLError as exc:
-        mark = exc.problem_mark
-        where = f"line {mark.line + 1}" if mark else ""
-        raise SchemaError(source, where, f"not valid YAML ({exc.problem})") from None
+        raise SchemaError(source, _mark(exc.problem_mark), f"not valid YAML ({_one_line(exc.problem)})") from None
     except yaml.YAMLError as exc:
-        raise SchemaError(source, "", f"not valid YAML ({exc})") from None
+        raise SchemaError(source, "", f"not valid YAML ({_one_line(exc)})") from None
+    except RecursionError:
+        raise SchemaError(source, "", "nesting is too deep") from None
     if root is None:
         raise SchemaError(source, "", "file is empty")
     _check_node_tree(root, source)
     try:
         data = yaml.SafeLoader("").construct_document(root)
     except yaml.constructor.ConstructorError as exc:
-        mark = exc.problem_mark
-        where = f"line {mark.line + 1}" if mark else ""
-        raise SchemaError(source, where, f"unsupported YAML ({exc.problem})") from None
+        raise SchemaError(source, _mark(exc.problem_mark), f"unsupported YAML ({_one_line(exc.problem)})") from None
+    except (yaml.YAMLError, ValueError, OverflowError) as exc:  # a bad !!int, !!float, date ...
+        raise SchemaError(source, "", f"unsupported YAML ({_one_line(exc) or type(exc).__name__})") from None
+    except RecursionError:
+        raise SchemaError(source, "", "nesting is too deep") from None
 
     def locate(path: tuple[Any, ...]) -> str:
         node = _node_at(root, path)
         return f"line {node.start_mark.line + 1}" if node is not None else ""
 
     return data, locate
+
+
+def _scan_yaml_events(text: str, source: str) -> None:
+    """Refuse deep nesting, alias floods and explicit tags from the event stream, before any tree is built.
+
+    The parser is a state machine (no recursion), and the scan stops at the first problem,
+    so a hostile file costs little.
+    """
+    depth = 0
+    aliases = 0
+    try:
+        for event in yaml.parse(text, Loader=yaml.SafeLoader):
+            if isinstance(event, (yaml.MappingStartEvent, yaml.SequenceStartEvent)):
+                depth += 1
+                if depth > MAX_DEPTH:
+                    raise SchemaError(source, _mark(event.start_mark), f"nesting is deeper than {MAX_DEPTH} levels")
+            elif isinstance(event, (yaml.MappingEndEvent, yaml.SequenceEndEvent)):
+                depth -= 1
+            elif isinstance(event, yaml.AliasEvent):
+                aliases += 1
+                if aliases > MAX_ALIASES:
+                    raise SchemaError(source, _mark(event.start_mark), f"more than {MAX_ALIASES} aliases")
+            tag = getattr(event, "tag", None)
+            if tag is not None and tag != "!" and tag not in ALLOWED_TAGS:
+                shown = tag.replace("tag:yaml.org,2002:", "!!")
+                raise SchemaError(source, _mark(event.start_mark), f"unsupported YAML tag {shown!r} (a schema is data, not code)")
+    except yaml.MarkedYAMLError as exc:
+        raise SchemaError(source, _mark(exc.problem_mark), f"not valid YAML ({_one_line(exc.problem)})") from None
+    except yaml.reader.ReaderError as exc:
+        line = text.count("\n", 0, exc.position) + 1
+        raise SchemaError(source, f"line {line}", f"not valid YAML (character U+{exc.character:04X} is not allowed)") from None
+    except yaml.YAMLError as exc:
+        raise SchemaError(source, "", f"not valid YAML ({_one_line(exc)})") from None
+    except RecursionError:
+        raise SchemaError(source, "", "nesting is too deep") from None
 
 
 def _check_node_tree(root: yaml.Node, source: str) -> None:
@@ -195,10 +427,15 @@ def _suggest(word: str, choices: tuple[str, ...] | list[str]) -> str:
     return f" (did you mean {close[0]!r}?)" if close else ""
 
 
+def _shown(text: str) -> str:
+    """``text`` for a one-line message: control and invisible characters as escapes."""
+    return "".join(ch if ch.isprintable() else ch.encode("unicode_escape").decode("ascii") for ch in text)
+
+
 def _path_text(path: tuple[Any, ...]) -> str:
     out = ""
     for step in path:
-        out += f"[{step}]" if isinstance(step, int) else (f".{step}" if out else str(step))
+        out += f"[{step}]" if isinstance(step, int) else (f".{_shown(str(step))}" if out else _shown(str(step)))
     return out
 
 
@@ -241,6 +478,15 @@ class _Checker:
             out.append(item.strip())
         return tuple(out)
 
+    def misspelt_keys(self, block: dict[str, Any], known: tuple[str, ...], path: tuple[Any, ...], what: str) -> None:
+        """Unknown keys are kept, unless one is a near miss of a known key (``requried``, ``tpye``)."""
+        for key in block:
+            if key in known or not isinstance(key, str):
+                continue
+            guess = _misspelling_of(key, known)
+            if guess is not None:
+                raise self.fail(path + (key,), f"{key!r} is not a known {what} key (did you mean {guess!r}?)")
+
     def unknown_keys(self, block: dict[str, Any], allowed: tuple[str, ...], path: tuple[Any, ...], what: str) -> None:
         for key in block:
             if key not in allowed:
@@ -250,6 +496,7 @@ class _Checker:
 
     def schema(self, data: Any) -> TargetSchema:
         data = self.mapping(data, ())
+        self.misspelt_keys(data, SCHEMA_KEYS, (), "schema")
         if "fields" not in data:
             raise self.fail((), "missing 'fields'")
         raw_fields = data["fields"]
@@ -277,15 +524,22 @@ class _Checker:
         fields: list[FieldSpec] = []
         seen: dict[str, int] = {}
         for index, raw in enumerate(raw_fields):
-            spec = self.field(raw, ("fields", index), fuzzy)
-            folded = spec.name.strip().casefold()
-            if folded in seen:
-                raise self.fail(
-                    ("fields", index, "name"),
-                    f"duplicate field name {spec.name!r} (same as fields[{seen[folded]}])",
-                )
-            seen[folded] = index
-            fields.append(spec)
+            name = raw.get("name") if isinstance(raw, dict) else None
+            if isinstance(name, str):
+                # names that differ only in case, spacing or Unicode form collide in
+                # spreadsheets and case-insensitive tools: refuse them (catalogue S4)
+                folded = normalise_name(name)
+                if folded in seen:
+                    first = seen[folded]
+                    where = self.locate(("fields", first, "name"))
+                    raise self.fail(
+                        ("fields", index, "name"),
+                        f"duplicate field name {name!r} (same as fields[{first}]): {raw_fields[first]['name']!r}"
+                        + (f" on {where}" if where else "")
+                        + "; names are compared ignoring case and spaces",
+                    )
+                seen[folded] = index
+            fields.append(self.field(raw, ("fields", index), fuzzy))
 
         primary = data.get("primaryKey") or ()
         if isinstance(primary, str):
@@ -321,11 +575,11 @@ class _Checker:
 
     def field(self, raw: Any, path: tuple[Any, ...], default_fuzzy: int) -> FieldSpec:
         raw = self.mapping(raw, path)
+        self.misspelt_keys(raw, FIELD_KEYS, path, "field")
         name = raw.get("name")
         if not isinstance(name, str) or not name.strip():
             raise self.fail(path + ("name",), "every field needs a non-empty string 'name'")
-        if name != name.strip() or any(ord(ch) < 32 or ord(ch) == 127 for ch in name):
-            raise self.fail(path + ("name",), f"field name {name!r} has control characters or surrounding spaces")
+        self.field_name(name, path + ("name",))
         type_ = raw.get("type", "any")
         if type_ not in TYPES:
             if isinstance(type_, str) and type_ in ("object", "array", "list", "time", "yearmonth", "duration", "geopoint", "geojson"):
@@ -348,6 +602,25 @@ class _Checker:
             descriptor=raw,
         )
 
+    def field_name(self, name: str, path: tuple[Any, ...]) -> None:
+        """A field name is a column header in every output: plain, visible text (catalogue S4).
+
+        Quotes, semicolons and SQL words are allowed: the CSV writer quotes every header
+        and no SQL is ever built from a name.
+        """
+        if any(not ch.isprintable() and ch != " " for ch in name):
+            raise self.fail(path, f"field name {name!r} has control characters or invisible characters")
+        if name != name.strip():
+            raise self.fail(path, f"field name {name!r} has surrounding spaces")
+        if len(name) > MAX_NAME_LENGTH:
+            raise self.fail(path, f"field name is longer than {MAX_NAME_LENGTH} characters")
+        if name.startswith(FORMULA_STARTS):
+            raise self.fail(
+                path, f"field name {name!r} starts with {name[0]!r}, which spreadsheets read as a formula; rename the field"
+            )
+        if normalise_name(name) in RESERVED_NAMES:
+            raise self.fail(path, f"field name {name!r} is the name of the table's own first column; rename the field")
+
     def constraints(self, raw: Any, path: tuple[Any, ...], type_: str) -> dict[str, Any]:
         raw = self.mapping(raw, path)
         for key, value in raw.items():
@@ -360,8 +633,6 @@ class _Checker:
             if key == "enum" and (not isinstance(value, list) or not value):
                 raise self.fail(path + (key,), "must be a non-empty list")
             if key == "pattern":
-                if not isinstance(value, str):
-                    raise self.fail(path + (key,), "must be a string")
                 self.regex(value, path + (key,))
             if key in ("minLength", "maxLength") and (isinstance(value, bool) or not isinstance(value, int) or value < 0):
                 raise self.fail(path + (key,), "must be a whole number, 0 or more")
@@ -370,11 +641,14 @@ class _Checker:
                     raise self.fail(path + (key,), f"must be a number for a {type_} field")
         return dict(raw)
 
-    def regex(self, value: str, path: tuple[Any, ...]) -> re.Pattern[str]:
+    def regex(self, value: Any, path: tuple[Any, ...]) -> UserPattern:
+        """A user pattern, compiled for matching with a time limit (``structurize.patterns``)."""
+        if not isinstance(value, str):
+            raise self.fail(path, "must be a string")
         try:
-            return re.compile(value)
-        except re.error as exc:
-            raise self.fail(path, f"not a valid regular expression ({exc})") from None
+            return compile_pattern(value)
+        except PatternError as exc:
+            raise self.fail(path, f"not a valid regular expression ({_one_line(exc)})") from None
 
     def hints(
         self, raw: Any, path: tuple[Any, ...], type_: str, constraints: dict[str, Any], default_fuzzy: int
@@ -435,6 +709,30 @@ class _Checker:
             pattern=pattern,
             fuzzy_distance=fuzzy,
         )
+
+
+def _misspelling_of(key: str, known: tuple[str, ...]) -> str | None:
+    """The known key ``key`` is a near miss of: another case, or one edit away (two for long keys).
+
+    Edits count a swap of neighbours as one (``tpye``), so that custom keys such as
+    ``notes`` or ``x_source`` are kept while typos are caught.
+    """
+    from rapidfuzz.distance import OSA
+
+    folded = key.casefold()
+    for word in known:
+        if folded == word.casefold():
+            return word
+    if len(key) < 4:
+        return None
+    allowed = 2 if len(key) >= 9 else 1
+    best = min(known, key=lambda word: OSA.distance(folded, word.casefold()))
+    return best if OSA.distance(folded, best.casefold()) <= allowed else None
+
+
+def normalise_name(name: str) -> str:
+    """The form two field names are compared in: Unicode NFKC, case-folded, spaces collapsed."""
+    return " ".join(unicodedata.normalize("NFKC", name).casefold().split())
 
 
 def _flag_side(key: Any) -> bool | None:

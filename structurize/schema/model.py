@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass, field
 from typing import Any
+
+from ..patterns import UserPattern, compile_pattern
 
 #: Value kinds a field's ``extract.as`` may name (SCHEMA_FORMAT.md).
 KINDS: tuple[str, ...] = (
@@ -44,7 +45,8 @@ class FieldHints:
     #: flag fields: variants read as true / as false.
     true_variants: tuple[str, ...] = ()
     false_variants: tuple[str, ...] = ()
-    pattern: re.Pattern[str] | None = None
+    #: ``extract.pattern`` (or, for identifiers, ``constraints.pattern``); matched with a time limit.
+    pattern: UserPattern | None = None
     fuzzy_distance: int = DEFAULT_FUZZY_DISTANCE
 
 
@@ -74,10 +76,10 @@ class FieldSpec:
         return tuple(values) if values is not None else None
 
     @property
-    def pattern(self) -> re.Pattern[str] | None:
-        """The whole-value ``constraints.pattern``, compiled."""
+    def pattern(self) -> UserPattern | None:
+        """The whole-value ``constraints.pattern``, compiled (cached), matched with a time limit."""
         raw = self.constraints.get("pattern")
-        return re.compile(raw) if raw else None
+        return compile_pattern(raw) if raw else None
 
 
 @dataclass(frozen=True)
