@@ -6,6 +6,7 @@ finished but some documents could not be read.
 
 from __future__ import annotations
 
+import errno
 import json
 import os
 import sys
@@ -179,11 +180,21 @@ def _run_one(folder: Path, target: TargetSchema, out_dir: Path, options: Extract
     finally:
         if progress is not None:
             progress.stop()
-    paths = write_outputs(result, out_dir, bom=options.csv_bom)
+    paths = _write(result, out_dir, options.csv_bom)
     _report_documents(result, quiet)
     if not quiet:
         _summary(target.name, result, paths["table"].parent)
     return sum(1 for doc in result.documents if not doc.status.readable)
+
+
+def _write(result: api.ExtractionResult, out_dir: Path, bom: bool) -> dict[str, Path]:
+    """Write the outputs; a full or unwritable disk is one line (the old outputs stay)."""
+    try:
+        return write_outputs(result, out_dir, bom=bom)
+    except OSError as exc:
+        reason = "no space left on the device" if exc.errno in (errno.ENOSPC, errno.EDQUOT, errno.EFBIG) else (exc.strerror or type(exc).__name__)
+        hint = "; the values are in the store: run `structurize export` once it is fixed" if result.settings.get("run") else ""
+        raise StructurizeError(f"{_escape(str(out_dir))}: cannot write the outputs ({reason}){hint}") from None
 
 
 def _report_documents(result: api.ExtractionResult, quiet: bool) -> None:
@@ -334,7 +345,7 @@ def export_command(
                 raise UsageError(f"{_escape(str(store))}: no run {run_id}")
             documents = incremental.export(opened, target, run_id)
         result = api.ExtractionResult(schema=target, documents=tuple(documents), settings={"run": run_id})
-        paths = write_outputs(result, output, bom=not plain_csv)
+        paths = _write(result, output, not plain_csv)
     except StructurizeError as exc:
         raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None
     if not quiet:

@@ -14,7 +14,7 @@ import hashlib
 import json
 import time
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -136,24 +136,32 @@ def run(
         say(f"{len(report.missing)} document{'s' * (len(report.missing) != 1)} seen before in this folder "
             f"{'are' if len(report.missing) != 1 else 'is'} no longer there: " + ", ".join(report.missing[:5])
             + (" ..." if len(report.missing) > 5 else ""))
-    for source, sha in reuse:
-        store.reuse_document(run_id, schema.name, input_root, source, sha)
-        report.reused += 1
+    store.reuse_documents(run_id, schema.name, input_root, reuse)
+    report.reused = len(reuse)
+    for source, _ in reuse:
         if progress:
             progress(source)
     needed_by_source = {source: needed for _, source, needed in plan}
+    unrecorded: list[DocumentResult] = []
     for result in _extract(plan, schema, options):
         fields = needed_by_source[result.source]
-        if result.sha256 != shas[result.source] or not result.sha256:
+        if not result.sha256 and shas[result.source]:
+            # The worker did not come back (timeout, crash): record the failure under the hash
+            # taken when planning, so that it is reported now and retried by the next run.
+            result = replace(result, sha256=shas[result.source])
+            fields = list(schema.field_names)
+        if result.sha256 != shas[result.source]:
             fields = list(schema.field_names)  # the file changed since it was hashed
         if result.sha256:
             store.save_document(run_id, schema.name, input_root, result.source, result, hashes, fields, EXTRACTOR_VERSION)
+        else:
+            unrecorded.append(result)  # not even hashable (unreadable): reported by this run, not stored
         report.extracted += 1
         if progress:
             progress(result.source)
     started = time.perf_counter()
     documents = store.run_documents(run_id)
-    results = finish(schema, store, documents)
+    results = finish(schema, store, documents, unrecorded)
     counts = {"extracted": report.extracted, "reused": report.reused, "missing": len(report.missing)}
     for result in results:
         counts[str(result.status)] = counts.get(str(result.status), 0) + 1
@@ -161,9 +169,10 @@ def run(
     return results, report
 
 
-def finish(schema: TargetSchema, store: Store, documents: list[tuple[str, str]]) -> list[DocumentResult]:
-    """Stored results for these documents, with the table-wide checks applied."""
-    results = store.results(schema, field_hashes(schema), EXTRACTOR_VERSION, documents)
+def finish(schema: TargetSchema, store: Store, documents: list[tuple[str, str]],
+           extra: list[DocumentResult] | None = None) -> list[DocumentResult]:
+    """Stored results for these documents (plus ``extra`` ones), with the table-wide checks applied."""
+    results = store.results(schema, field_hashes(schema), EXTRACTOR_VERSION, documents) + list(extra or ())
     results.sort(key=lambda result: result.source)
     return flag_unusual_gaps(schema, check_unique(schema, results))
 

@@ -3,6 +3,8 @@
 CSV files follow RFC 4180 (comma, double quotes doubled, CRLF line ends) and are UTF-8 with
 a byte-order mark by default, so that Excel on Windows opens them as UTF-8 on double-click;
 pandas, the csv module (``encoding="utf-8-sig"``) and frictionless read the mark correctly.
+(Written with the csv module, not pandas: an incremental run that changes nothing should
+not pay pandas' import; ``ExtractionResult.to_frames`` gives DataFrames.)
 Every text cell that starts with a character a spreadsheet treats as a formula
 (``= + - @``, tab, CR, LF, NUL, per OWASP "CSV Injection" and ASVS 5.0 1.2.10) gets a
 leading apostrophe, and every field is quoted.  Numbers and dates that passed validation
@@ -31,7 +33,6 @@ from collections.abc import Iterable, Sequence
 from pathlib import Path
 from typing import Any
 
-import pandas as pd
 
 from .api import ExtractionResult
 from .faults import fault_point
@@ -144,14 +145,31 @@ def _text_columns(schema: TargetSchema) -> list[bool]:
     return [True] + [spec.type in ("string", "any") for spec in schema.fields]
 
 
+OUTPUT_FILES = (TABLE_FILE, VALUES_FILE, DOCUMENTS_FILE, PACKAGE_FILE, DICTIONARY_FILE, DICTIONARY_CSV)
+
+
+def _remove_stale_temporaries(out: Path) -> None:
+    """Delete temporary files a killed earlier run left behind (only our own names)."""
+    if not out.is_dir():
+        return
+    for name in OUTPUT_FILES:
+        for stale in out.glob(f".{name}.*.tmp"):
+            try:
+                stale.unlink()
+            except OSError:
+                pass
+
+
 def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = True) -> dict[str, Path]:
     """Write every output file of ``result`` into ``out_dir``; return their paths."""
     out = Path(out_dir)
     schema = result.schema
+    _remove_stale_temporaries(out)
     counter = _Sanitiser()
-    table = pd.DataFrame(counter.rows(result.rows()), columns=["document", *schema.field_names])
-    values = pd.DataFrame(counter.rows(result.values(), note_in="reason"), columns=VALUES_COLUMNS)
-    documents = pd.DataFrame(counter.rows(result.document_rows()), columns=DOCUMENTS_COLUMNS)
+    table_columns = ["document", *schema.field_names]
+    table = _columns(counter.rows(result.rows()), table_columns)
+    values = _columns(counter.rows(result.values(), note_in="reason"), VALUES_COLUMNS)
+    documents = _columns(counter.rows(result.document_rows()), DOCUMENTS_COLUMNS)
     paths = {
         "table": out / TABLE_FILE,
         "values": out / VALUES_FILE,
@@ -160,12 +178,12 @@ def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = 
         "dictionary": out / DICTIONARY_FILE,
         "dictionary_csv": out / DICTIONARY_CSV,
     }
-    atomic_write(paths["table"], csv_bytes(table.columns, _records(table), bom=bom, guarded=_text_columns(schema)))
+    atomic_write(paths["table"], csv_bytes(table_columns, table, bom=bom, guarded=_text_columns(schema)))
     values_guard = [True, True, True, False, False, False, False, False, True, False, True, True]
-    atomic_write(paths["values"], csv_bytes(values.columns, _records(values), bom=bom, guarded=values_guard))
-    atomic_write(paths["documents"], csv_bytes(documents.columns, _records(documents), bom=bom))
+    atomic_write(paths["values"], csv_bytes(VALUES_COLUMNS, values, bom=bom, guarded=values_guard))
+    atomic_write(paths["documents"], csv_bytes(DOCUMENTS_COLUMNS, documents, bom=bom))
     dictionary = data_dictionary(result)
-    atomic_write(paths["dictionary_csv"], csv_bytes(dictionary.columns, _records(dictionary), bom=bom))
+    atomic_write(paths["dictionary_csv"], csv_bytes(DICTIONARY_COLUMNS, _columns(dictionary, DICTIONARY_COLUMNS), bom=bom))
     atomic_write(paths["dictionary"], sanitise(dictionary_markdown(schema, dictionary)).encode("utf-8"))
     descriptor = datapackage(result, bom=bom)
     descriptor["structurize"] = {"csv_formula_guard": True, "sanitised_cells": counter.changed}
@@ -196,9 +214,9 @@ class _Sanitiser:
         return out
 
 
-def _records(frame: pd.DataFrame) -> Iterable[list[Any]]:
-    for row in frame.itertuples(index=False, name=None):
-        yield [None if (isinstance(v, float) and pd.isna(v)) or v is pd.NA else _plain(v) for v in row]
+def _columns(rows: Iterable[dict[str, Any]], columns: Sequence[str]) -> list[list[Any]]:
+    """Rows as lists in ``columns`` order (None for an absent value)."""
+    return [[_plain(row.get(column)) for column in columns] for row in rows]
 
 
 def _plain(value: Any) -> Any:
@@ -268,16 +286,22 @@ def _slug(text: str) -> str:
     return slug or "extraction"
 
 
-def data_dictionary(result: ExtractionResult) -> pd.DataFrame:
+DICTIONARY_COLUMNS = [
+    "field", "title", "type", "definition", "allowed_values", "constraints", "extracted_as", "documents", "filled",
+    "fill_rate", "flagged_for_review", "read_documents",
+]
+
+
+def data_dictionary(result: ExtractionResult) -> list[dict[str, Any]]:
     """One row per field: title, type, definition, allowed values, fill rate, review share."""
-    values = pd.DataFrame(result.values(), columns=VALUES_COLUMNS)
-    readable = {doc.source for doc in result.documents if doc.status.readable}
+    readable = sum(1 for doc in result.documents if doc.status.readable)
+    flagged_statuses = (ValueStatus.REVIEW, ValueStatus.INVALID)
     rows = []
     for spec in result.schema.fields:
-        mine = values[values["field"] == spec.name]
+        mine = [item for doc in result.documents for item in doc.values if item.field == spec.name]
         total = len(mine)
-        filled = int((mine["value"] != "").sum()) if total else 0
-        flagged = int(mine["status"].isin([str(ValueStatus.REVIEW), str(ValueStatus.INVALID)]).sum()) if total else 0
+        filled = sum(1 for item in mine if item.value is not None)
+        flagged = sum(1 for item in mine if item.status in flagged_statuses)
         allowed = spec.enum or ()
         constraints = {k: v for k, v in spec.constraints.items() if k != "enum"}
         rows.append(
@@ -293,13 +317,13 @@ def data_dictionary(result: ExtractionResult) -> pd.DataFrame:
                 "filled": filled,
                 "fill_rate": round(filled / total, 3) if total else 0.0,
                 "flagged_for_review": flagged,
-                "read_documents": len(readable),
+                "read_documents": readable,
             }
         )
-    return pd.DataFrame(rows)
+    return rows
 
 
-def dictionary_markdown(schema: TargetSchema, dictionary: pd.DataFrame) -> str:
+def dictionary_markdown(schema: TargetSchema, dictionary: list[dict[str, Any]]) -> str:
     lines = [f"# Data dictionary: {schema.title or schema.name}", ""]
     if schema.description:
         lines += [" ".join(schema.description.split()), ""]
@@ -308,7 +332,7 @@ def dictionary_markdown(schema: TargetSchema, dictionary: pd.DataFrame) -> str:
         "anything about a person; local privacy and employment law govern their use.",
         "",
     ]
-    for row in dictionary.to_dict("records"):
+    for row in dictionary:
         lines.append(f"## {row['field']} — {row['title']}")
         lines.append("")
         lines.append(f"- **Type:** {row['type']}")

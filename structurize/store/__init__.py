@@ -25,6 +25,7 @@ import datetime as dt
 import json
 import os
 import sqlite3
+import time
 from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
 from decimal import Decimal
@@ -114,7 +115,9 @@ class Store:
         db.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
         if existed:
             application = db.execute("PRAGMA application_id").fetchone()[0]
-            if application != APPLICATION_ID:
+            # An empty SQLite file (no tables yet) is a store another process is creating
+            # right now: it is set up below, inside the migration's write lock.
+            if application != APPLICATION_ID and (application != 0 or _has_tables(db)):
                 raise StoreError(f"store {self.path}: not a structurize store; it was not changed")
             result = db.execute("PRAGMA quick_check").fetchone()[0]
             if result != "ok":
@@ -125,7 +128,7 @@ class Store:
                     f"store {self.path}: written by a newer structurize (store version {version}, "
                     f"this one knows {len(MIGRATIONS)}); upgrade structurize"
                 )
-        db.execute("PRAGMA journal_mode = WAL")
+        _set_wal(db)
         db.execute("PRAGMA synchronous = FULL")
         db.execute("PRAGMA foreign_keys = ON")
         version = db.execute("PRAGMA user_version").fetchone()[0]
@@ -134,6 +137,9 @@ class Store:
                 continue
             db.execute("BEGIN IMMEDIATE")
             try:
+                if db.execute("PRAGMA user_version").fetchone()[0] >= index:
+                    db.execute("COMMIT")  # another process applied it while this one waited for the lock
+                    continue
                 if index == 1:
                     db.execute("CREATE TABLE IF NOT EXISTS migrations (name TEXT PRIMARY KEY, applied_at TEXT NOT NULL)")
                     db.execute(f"PRAGMA application_id = {APPLICATION_ID}")
@@ -296,8 +302,19 @@ class Store:
             self._record_path(db, run_id, schema_name, input_root, path, result.sha256, "extracted", fields)
 
     def reuse_document(self, run_id: int, schema_name: str, input_root: str, path: str, sha256: str) -> None:
+        self.reuse_documents(run_id, schema_name, input_root, [(path, sha256)])
+
+    def reuse_documents(self, run_id: int, schema_name: str, input_root: str, documents: list[tuple[str, str]]) -> None:
+        """Record documents whose stored values are reused: ``(path, sha256)`` pairs.
+
+        Only bookkeeping rows (no values), so one transaction holds them all: a commit per
+        document would make a no-op run over a large folder cost one disk sync per file.
+        """
+        if not documents:
+            return
         with self.transaction() as db:
-            self._record_path(db, run_id, schema_name, input_root, path, sha256, "reused", [])
+            for path, sha256 in documents:
+                self._record_path(db, run_id, schema_name, input_root, path, sha256, "reused", [])
 
     def record_missing(self, run_id: int, path: str, sha256: str) -> None:
         with self.transaction() as db:
@@ -360,6 +377,24 @@ class Store:
         for row in rows:
             latest[row["sha256"]] = (row["path"], row["sha256"])
         return sorted(latest.values())
+
+
+def _has_tables(db: sqlite3.Connection) -> bool:
+    return db.execute("SELECT count(*) FROM sqlite_master").fetchone()[0] > 0
+
+
+def _set_wal(db: sqlite3.Connection) -> None:
+    """Switch to WAL.  The switch needs the file to itself and does not wait on the busy
+    handler, so a store another process is creating at the same moment is retried here."""
+    deadline = time.monotonic() + BUSY_TIMEOUT_MS / 1000
+    while True:
+        try:
+            db.execute("PRAGMA journal_mode = WAL")
+            return
+        except sqlite3.OperationalError as exc:
+            if "locked" not in str(exc).lower() or time.monotonic() > deadline:
+                raise
+            time.sleep(0.02)
 
 
 def _dump_value(value: Any) -> str | None:
