@@ -40,6 +40,8 @@ class ExtractionResult:
     input_root: str = ""
     seconds: float = 0.0
     settings: dict[str, Any] = field(default_factory=dict)
+    #: What the results were made from (store-backed runs): equal fingerprints, equal outputs.
+    fingerprint: str = ""
 
     def rows(self) -> list[dict[str, str]]:
         """The wide table: one dict per document, the contract's output forms."""
@@ -300,6 +302,7 @@ def extract_folder(
     tasks = list(discover(root))
     results: list[DocumentResult] = []
     run_id = None
+    fingerprint = ""
     if store is not None:
         from . import incremental
 
@@ -307,6 +310,7 @@ def extract_folder(
             tasks, schema, store, options, str(root.resolve()), reextract=reextract, progress=progress, notify=notify
         )
         run_id = report.run_id
+        fingerprint = report.fingerprint
     elif options.workers == 0:
         ner = ner_for(options)
         for path, source in tasks:
@@ -336,6 +340,7 @@ def extract_folder(
             "memory_limit": options.limits.memory_mb,
             "run": run_id,
         },
+        fingerprint=fingerprint,
     )
 
 

@@ -89,6 +89,7 @@ class RunReport:
     missing: list[str] = field(default_factory=list)
     change: SchemaChange = field(default_factory=SchemaChange)
     messages: list[str] = field(default_factory=list)
+    fingerprint: str = ""
 
 
 def run(
@@ -166,7 +167,15 @@ def run(
     for result in results:
         counts[str(result.status)] = counts.get(str(result.status), 0) + 1
     store.finish_run(run_id, counts, note=f"rebuilt in {time.perf_counter() - started:.3f} s")
+    if not unrecorded:
+        report.fingerprint = fingerprint(schema, store, documents)
     return results, report
+
+
+def fingerprint(schema: TargetSchema, store: Store, documents: list[tuple[str, str]]) -> str:
+    """What a run's outputs are made of: the schema, the versions, the documents, and the last
+    run that extracted anything for this schema (stored values change only then)."""
+    return _digest([schema_hash(schema), EXTRACTOR_VERSION, __version__, sorted(documents), store.last_extraction(schema.name)])
 
 
 def finish(schema: TargetSchema, store: Store, documents: list[tuple[str, str]],

@@ -165,11 +165,6 @@ def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = 
     out = Path(out_dir)
     schema = result.schema
     _remove_stale_temporaries(out)
-    counter = _Sanitiser()
-    table_columns = ["document", *schema.field_names]
-    table = _columns(counter.rows(result.rows()), table_columns)
-    values = _columns(counter.rows(result.values(), note_in="reason"), VALUES_COLUMNS)
-    documents = _columns(counter.rows(result.document_rows()), DOCUMENTS_COLUMNS)
     paths = {
         "table": out / TABLE_FILE,
         "values": out / VALUES_FILE,
@@ -178,6 +173,14 @@ def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = 
         "dictionary": out / DICTIONARY_FILE,
         "dictionary_csv": out / DICTIONARY_CSV,
     }
+    fingerprint = f"{result.fingerprint}:bom={bom}" if result.fingerprint else ""
+    if fingerprint and _unchanged(out, fingerprint, paths):
+        return paths  # the same inputs, values and settings as the outputs already there
+    counter = _Sanitiser()
+    table_columns = ["document", *schema.field_names]
+    table = _columns(counter.rows(result.rows()), table_columns)
+    values = _columns(counter.rows(result.values(), note_in="reason"), VALUES_COLUMNS)
+    documents = _columns(counter.rows(result.document_rows()), DOCUMENTS_COLUMNS)
     atomic_write(paths["table"], csv_bytes(table_columns, table, bom=bom, guarded=_text_columns(schema)))
     values_guard = [True, True, True, False, False, False, False, False, True, False, True, True]
     atomic_write(paths["values"], csv_bytes(VALUES_COLUMNS, values, bom=bom, guarded=values_guard))
@@ -188,7 +191,33 @@ def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = 
     descriptor = datapackage(result, bom=bom)
     descriptor["structurize"] = {"csv_formula_guard": True, "sanitised_cells": counter.changed}
     atomic_write(paths["datapackage"], (_no_surrogates(json.dumps(descriptor, indent=2, ensure_ascii=False)) + "\n").encode("utf-8"))
+    manifest = out / MANIFEST_FILE
+    if fingerprint:
+        files = {name: _file_digest(path) for name, path in paths.items()}
+        atomic_write(manifest, json.dumps({"fingerprint": fingerprint, "files": files}, sort_keys=True).encode("utf-8"))
+    elif manifest.exists():
+        manifest.unlink()
     return paths
+
+
+#: Records what the outputs in a folder were made from, so that an unchanged run can skip them.
+MANIFEST_FILE = ".structurize-outputs.json"
+
+
+def _file_digest(path: Path) -> str:
+    import hashlib
+
+    return hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+def _unchanged(out: Path, fingerprint: str, paths: dict[str, Path]) -> bool:
+    try:
+        manifest = json.loads((out / MANIFEST_FILE).read_text(encoding="utf-8"))
+        if manifest.get("fingerprint") != fingerprint:
+            return False
+        return all(_file_digest(path) == manifest["files"][name] for name, path in paths.items())
+    except (OSError, ValueError, KeyError, TypeError):
+        return False
 
 
 class _Sanitiser:

@@ -339,30 +339,47 @@ class Store:
 
     def results(self, schema: TargetSchema, field_hashes: dict[str, str], extractor_version: str,
                 documents: Iterable[tuple[str, str]]) -> list[DocumentResult]:
-        """Rebuild :class:`DocumentResult` objects for ``(path, sha256)`` pairs from stored rows."""
+        """Rebuild :class:`DocumentResult` objects for ``(path, sha256)`` pairs from stored rows.
+
+        Reads in chunks of documents (two queries per chunk, not per document).
+        """
+        wanted = list(documents)
         out = []
-        for path, sha256 in documents:
-            rows = self._rows("SELECT * FROM documents WHERE sha256 = ?", (sha256,))
-            if not rows:
-                continue
-            doc = rows[0]
-            stored = {
-                row["field"]: row
-                for row in self._rows(
-                    "SELECT * FROM field_values WHERE sha256 = ? AND schema_name = ? AND extractor_version = ?",
-                    (sha256, schema.name, extractor_version),
+        for start in range(0, len(wanted), 500):
+            chunk = wanted[start : start + 500]
+            shas = list(dict.fromkeys(sha for _, sha in chunk))
+            marks = ",".join("?" * len(shas))
+            docs = {row["sha256"]: row for row in self._rows(f"SELECT * FROM documents WHERE sha256 IN ({marks})", tuple(shas))}
+            stored: dict[str, dict[str, sqlite3.Row]] = {}
+            for row in self._rows(
+                f"SELECT * FROM field_values WHERE schema_name = ? AND extractor_version = ? AND sha256 IN ({marks})",
+                (schema.name, extractor_version, *shas),
+            ):
+                if row["field_hash"] == field_hashes.get(row["field"]):
+                    stored.setdefault(row["sha256"], {})[row["field"]] = row
+            for path, sha256 in chunk:
+                doc = docs.get(sha256)
+                if doc is None:
+                    continue
+                mine = stored.get(sha256, {})
+                values = tuple(_load_value(spec, mine.get(spec.name)) for spec in schema.fields)
+                out.append(
+                    DocumentResult(
+                        source=path, sha256=sha256, status=DocStatus(doc["status"]), reason=doc["reason"], note=doc["note"],
+                        reader=doc["reader"], encoding=doc["encoding"], pages=doc["pages"], chars=doc["chars"],
+                        warnings=tuple(_json_list(doc["warnings"])), seconds=doc["seconds"], values=values,
+                    )
                 )
-                if row["field_hash"] == field_hashes.get(row["field"])
-            }
-            values = tuple(_load_value(spec, stored.get(spec.name)) for spec in schema.fields)
-            out.append(
-                DocumentResult(
-                    source=path, sha256=sha256, status=DocStatus(doc["status"]), reason=doc["reason"], note=doc["note"],
-                    reader=doc["reader"], encoding=doc["encoding"], pages=doc["pages"], chars=doc["chars"],
-                    warnings=tuple(json.loads(doc["warnings"])), seconds=doc["seconds"], values=values,
-                )
-            )
         return out
+
+    def last_extraction(self, schema_name: str) -> int | None:
+        """The latest run that extracted a document for this schema."""
+        rows = self._rows(
+            "SELECT MAX(d.run_id) AS last FROM run_documents AS d JOIN runs AS r ON r.id = d.run_id"
+            " WHERE r.schema_name = ? AND d.action = 'extracted'",
+            (schema_name,),
+        )
+        return rows[0]["last"] if rows else None
 
     def run_documents(self, run_id: int) -> list[tuple[str, str]]:
         return [(row["path"], row["sha256"]) for row in self._rows(
@@ -395,6 +412,10 @@ def _set_wal(db: sqlite3.Connection) -> None:
             if "locked" not in str(exc).lower() or time.monotonic() > deadline:
                 raise
             time.sleep(0.02)
+
+
+def _json_list(text: str) -> list[Any]:
+    return [] if text == "[]" else json.loads(text)
 
 
 def _dump_value(value: Any) -> str | None:
@@ -442,10 +463,10 @@ def _load_value(spec: FieldSpec, row: sqlite3.Row | None) -> FieldValue:
     span = Span(row["span_start"], row["span_end"]) if row["span_start"] is not None else None
     alternatives = tuple(
         Alternative(_parse_value(alt["value"]), alt["score"], Span(alt["start"], alt["end"]) if alt["start"] is not None else None)
-        for alt in json.loads(row["alternatives"])
+        for alt in _json_list(row["alternatives"])
     )
     return FieldValue(
         field=spec.name, value=_parse_value(row["value"]), confidence=row["confidence"], status=ValueStatus(row["status"]),
         span=span, page=row["page"], snippet=row["snippet"], raw=row["raw"], extractor=row["extractor"], reason=row["reason"],
-        evidence=tuple(json.loads(row["evidence"])), alternatives=alternatives,
+        evidence=tuple(_json_list(row["evidence"])), alternatives=alternatives,
     )
