@@ -18,7 +18,7 @@ from . import patterns
 from .errors import ModelMissing, UsageError
 from .store import Store
 from .extract import extract_candidates
-from .extract.ner import NerModel, NoNer, load_model
+from .extract.ner import Entity, NerModel, NoNer, load_model
 from .options import ExtractOptions
 from .readers import read_document
 from .resolve import companions, period_candidate, resolve_field
@@ -29,6 +29,8 @@ from .validate import check_unique, flag_unusual_gaps, to_text, validate_value
 __all__ = ["ExtractionResult", "discover", "extract_document", "extract_folder", "load_schema"]
 
 Progress = Callable[[str], None]
+#: Documents read and passed through NER together (``nlp.pipe``) when there is no worker.
+BATCH_SIZE = 16
 
 
 @dataclass(frozen=True)
@@ -208,16 +210,52 @@ def extract_document(
     ner: NerModel | NoNer | None = None,
 ) -> DocumentResult:
     """Read one file and extract every field of ``schema`` from it."""
-    options = options or ExtractOptions()
     path = Path(path)
-    source = source or path.name
+    return extract_documents([(path, source or path.name)], schema, options=options, ner=ner)[0]
+
+
+def extract_documents(
+    tasks: list[tuple[Path, str]],
+    schema: TargetSchema,
+    *,
+    options: ExtractOptions | None = None,
+    ner: NerModel | NoNer | None = None,
+    on_step: Callable[[str | None], None] | None = None,
+) -> list[DocumentResult]:
+    """Read several files, run NER over their texts in one batch, extract each one.
+
+    The result of each document is the same as :func:`extract_document`'s; batching only
+    lets the NER pipeline work on several texts at once (``nlp.pipe``).  ``on_step`` is
+    told which document is being worked on (None while NER runs over the whole batch).
+    """
+    options = options or ExtractOptions()
+    ner = ner if ner is not None else ner_for(options)
+    step = on_step or (lambda source: None)
+    read = []
+    for path, source in tasks:
+        step(source)
+        started = time.perf_counter()
+        read.append((read_document(Path(path), source, options), time.perf_counter() - started))
+    texts = [doc.text if doc.status.readable and doc.text.strip() else "" for doc, _ in read]
+    step(None)
     started = time.perf_counter()
-    doc = read_document(path, source, options)
+    entities = list(ner.pipe(texts)) if any(texts) else [() for _ in texts]
+    ner_share = (time.perf_counter() - started) / max(1, len(texts))
+    results = []
+    for (doc, seconds), found in zip(read, entities):
+        step(doc.source)
+        results.append(_finish_document(doc, schema, found, options, seconds + ner_share))
+    return results
+
+
+def _finish_document(doc: Document, schema: TargetSchema, entities: tuple[Entity, ...], options: ExtractOptions,
+                     seconds: float) -> DocumentResult:
+    started = time.perf_counter()
     status, reason, note = doc.status, doc.reason, doc.note
     warnings = doc.warnings
     try:
         with patterns.time_limit(options.limits.regex_seconds), patterns.collect_timeouts() as timed_out:
-            values = process_text(doc, schema, ner if ner is not None else ner_for(options), options)
+            values = process_text(doc, schema, entities, options)
         if timed_out:
             warnings += (patterns.TIMEOUT_WARNING,)
     except (ModelMissing, KeyboardInterrupt):
@@ -226,7 +264,7 @@ def extract_document(
         status, reason, note = DocStatus.FAILED, "extract_error", f"extraction failed ({type(exc).__name__})"
         values = _unread_values(schema, reason)
     return DocumentResult(
-        source=source,
+        source=doc.source,
         sha256=doc.sha256,
         status=status,
         reason=reason,
@@ -236,16 +274,15 @@ def extract_document(
         pages=doc.pages,
         chars=len(doc.text),
         warnings=warnings,
-        seconds=time.perf_counter() - started,
+        seconds=seconds + time.perf_counter() - started,
         values=values,
     )
 
 
-def process_text(doc: Document, schema: TargetSchema, ner: NerModel | NoNer, options: ExtractOptions) -> tuple[FieldValue, ...]:
-    """Extract, resolve and validate every field of one read document."""
+def process_text(doc: Document, schema: TargetSchema, entities: tuple[Entity, ...], options: ExtractOptions) -> tuple[FieldValue, ...]:
+    """Extract, resolve and validate every field of one read document (its NER entities given)."""
     if not doc.status.readable:
         return _unread_values(schema, doc.reason or str(doc.status))
-    entities = ner.entities(doc.text) if doc.text.strip() else ()
     analysis, candidates = extract_candidates(doc, schema, entities)
     review_below = schema.review_below
     resolved: dict[str, FieldValue] = {}
@@ -303,24 +340,27 @@ def extract_folder(
     results: list[DocumentResult] = []
     run_id = None
     fingerprint = ""
+    stats: dict[str, int] = {}
     if store is not None:
         from . import incremental
 
         results, report = incremental.run(
-            tasks, schema, store, options, str(root.resolve()), reextract=reextract, progress=progress, notify=notify
+            tasks, schema, store, options, str(root.resolve()), reextract=reextract, progress=progress, notify=notify,
+            stats=stats,
         )
         run_id = report.run_id
         fingerprint = report.fingerprint
     elif options.workers == 0:
         ner = ner_for(options)
-        for path, source in tasks:
-            results.append(extract_document(path, schema, source=source, options=options, ner=ner))
-            if progress is not None:
-                progress(source)
+        for start in range(0, len(tasks), BATCH_SIZE):
+            for result in extract_documents(tasks[start : start + BATCH_SIZE], schema, options=options, ner=ner):
+                results.append(result)
+                if progress is not None:
+                    progress(result.source)
     else:
         from .workers import run_documents
 
-        for result in run_documents(tasks, schema, options):
+        for result in run_documents(tasks, schema, options, stats=stats):
             results.append(result)
             if progress is not None:
                 progress(result.source)
@@ -339,6 +379,7 @@ def extract_folder(
             "time_limit": options.limits.seconds,
             "memory_limit": options.limits.memory_mb,
             "run": run_id,
+            **stats,
         },
         fingerprint=fingerprint,
     )

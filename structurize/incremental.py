@@ -102,6 +102,7 @@ def run(
     reextract: bool = False,
     progress: Callable[[str], None] | None = None,
     notify: Notify | None = None,
+    stats: dict[str, int] | None = None,
 ) -> tuple[list[DocumentResult], RunReport]:
     """One incremental run: plan, extract what is needed (one transaction each), rebuild."""
     say = notify or (lambda message: None)
@@ -144,7 +145,7 @@ def run(
             progress(source)
     needed_by_source = {source: needed for _, source, needed in plan}
     unrecorded: list[DocumentResult] = []
-    for result in _extract(plan, schema, options):
+    for result in _extract(plan, schema, options, stats):
         fields = needed_by_source[result.source]
         if not result.sha256 and shas[result.source]:
             # The worker did not come back (timeout, crash): record the failure under the hash
@@ -186,7 +187,8 @@ def finish(schema: TargetSchema, store: Store, documents: list[tuple[str, str]],
     return flag_unusual_gaps(schema, check_unique(schema, results))
 
 
-def _extract(plan: list[tuple[Path, str, list[str]]], schema: TargetSchema, options: ExtractOptions):  # type: ignore[no-untyped-def]
+def _extract(plan: list[tuple[Path, str, list[str]]], schema: TargetSchema, options: ExtractOptions,  # type: ignore[no-untyped-def]
+             stats: dict[str, int] | None = None):
     tasks = [(path, source) for path, source, _ in plan]
     if options.workers == 0:
         from .api import extract_document, ner_for
@@ -197,7 +199,7 @@ def _extract(plan: list[tuple[Path, str, list[str]]], schema: TargetSchema, opti
         return
     from .workers import run_documents
 
-    yield from run_documents(tasks, schema, options)
+    yield from run_documents(tasks, schema, options, stats=stats)
 
 
 def export(store: Store, schema: TargetSchema, run_id: int | None = None) -> list[DocumentResult]:

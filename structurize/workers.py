@@ -117,6 +117,14 @@ def _test_fault(source: str) -> None:
         del hog
 
 
+def _peak_rss_kb() -> int:
+    try:
+        import resource
+    except ImportError:
+        return 0
+    return int(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)
+
+
 def _worker_main(conn: Connection, schema: TargetSchema, options: ExtractOptions) -> None:
     """Runs in the worker process: limits, one model load, then documents until told to stop."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent decides when workers stop
@@ -136,22 +144,30 @@ def _worker_main(conn: Connection, schema: TargetSchema, options: ExtractOptions
         except EOFError:
             return
         if message is None:
+            conn.send(("bye", _peak_rss_kb()))
             return
-        path, source = message
+        chunk: list[Task] = message
+        def step(source: str | None) -> None:
+            conn.send(("step", source))
+            if source is not None:
+                _test_fault(source)
+
         try:
-            _test_fault(source)
-            result = api.extract_document(path, schema, source=source, options=options, ner=ner)
+            results = api.extract_documents(chunk, schema, options=options, ner=ner, on_step=step)
         except MemoryError:
-            result = failed_result(schema, source, "memory_limit", "the document needs more memory than the limit")
-        conn.send(("done", result))
+            if len(chunk) > 1:
+                os._exit(MEMORY_EXIT)  # the parent retries each document of the chunk alone
+            results = [failed_result(schema, chunk[0][1], "memory_limit", "the document needs more memory than the limit")]
+        conn.send(("done", results))
 
 
 @dataclass
 class _Worker:
     process: Any
     conn: Connection
-    task: Task | None = None
-    started: float = 0.0
+    task: list[Task] | None = None
+    current: str | None = None  #: the document it said it is working on (None: the whole chunk)
+    started: float = 0.0  #: when it started, or last said what it is working on
     ready: bool = False
     broken: bool = False
 
@@ -167,6 +183,7 @@ class _Pool:
         self.size = size
         self.context = _context()
         self.workers: list[_Worker] = []
+        self.peak_rss_kb = 0
 
     def start(self) -> _Worker:
         parent, child = self.context.Pipe()
@@ -193,11 +210,46 @@ class _Pool:
                 pass
         deadline = time.monotonic() + 5
         for worker in list(self.workers):
+            try:
+                while worker.conn.poll(max(0.05, deadline - time.monotonic())):
+                    kind, payload = worker.conn.recv()
+                    if kind == "bye":
+                        self.peak_rss_kb = max(self.peak_rss_kb, int(payload))
+                        break
+            except (EOFError, OSError):
+                pass
             worker.process.join(timeout=max(0.1, deadline - time.monotonic()))
             self.retire(worker, kill=True)
 
 
+#: Documents sent to a worker at once, so that NER can batch them (``nlp.pipe``).
+MAX_CHUNK = 8
+#: Exit status of a worker that ran out of memory on a chunk of several documents.
+MEMORY_EXIT = 86
+
+
+def _next_chunk(queue: deque[tuple[Task, bool]], workers: int) -> list[Task]:
+    """A chunk for an idle worker: small near the end of the queue, so the last documents
+    spread over all workers; one document when it has to run alone."""
+    task, alone = queue.popleft()
+    chunk = [task]
+    if alone:
+        return chunk
+    size = max(1, min(MAX_CHUNK, (len(queue) + 1) // (2 * workers)))
+    while len(chunk) < size and queue and not queue[0][1]:
+        chunk.append(queue.popleft()[0])
+    return chunk
+
+
+def _allowed(worker: _Worker, limit: float) -> float:
+    """Seconds a worker may go without news: to start, or per step (a document, or NER
+    over its chunk)."""
+    return START_SECONDS if not worker.ready else limit
+
+
 def _crash_reason(exitcode: int | None) -> tuple[str, str]:
+    if exitcode == MEMORY_EXIT:
+        return "memory_limit", "the document needs more memory than the limit"
     if exitcode is not None and exitcode < 0:
         name = signal.Signals(-exitcode).name if -exitcode in signal.valid_signals() else str(-exitcode)
         if -exitcode == signal.SIGKILL:
@@ -212,9 +264,14 @@ def run_documents(
     options: ExtractOptions,
     *,
     on_result: Callable[[DocumentResult], None] | None = None,
+    stats: dict[str, int] | None = None,
 ) -> Iterator[DocumentResult]:
-    """Extract every task in worker processes; yield each result as it finishes."""
-    queue: deque[Task] = deque(tasks)
+    """Extract every task in worker processes; yield each result as it finishes.
+
+    ``stats`` (optional) receives ``worker_peak_rss_kb``: the largest peak RSS a worker
+    reported when it stopped.
+    """
+    queue: deque[tuple[Task, bool]] = deque((task, False) for task in tasks)  # (task, must run alone)
     if not queue:
         return
     size = min(options.workers or default_workers(), len(queue))
@@ -228,17 +285,16 @@ def run_documents(
             now = time.monotonic()
             for worker in pool.workers:
                 if worker.ready and worker.task is None and queue:
-                    worker.task = queue.popleft()
+                    worker.task = _next_chunk(queue, len(pool.workers))
+                    worker.current = None
                     worker.started = now
                     worker.conn.send(worker.task)
             waiting = {w.conn: w for w in pool.workers}
             sentinels = {w.process.sentinel: w for w in pool.workers}
-            deadlines = [
-                w.started + (limit if w.ready else START_SECONDS) for w in pool.workers if w.task is not None or not w.ready
-            ]
+            deadlines = [w.started + _allowed(w, limit) for w in pool.workers if w.task is not None or not w.ready]
             timeout = max(0.0, min(deadlines) - now) if deadlines else None
             ready = wait([*waiting, *sentinels], timeout=timeout)
-            finished: list[tuple[_Worker, DocumentResult | None]] = []
+            finished: list[DocumentResult] = []
             for item in ready:
                 if item in waiting:
                     worker = waiting[item]
@@ -252,22 +308,24 @@ def run_documents(
                         raise ModelMissing(payload)
                     if kind == "ready":
                         worker.ready = True
+                    elif kind == "step":
+                        worker.current = payload
+                        worker.started = time.monotonic()
                     elif kind == "done":
-                        finished.append((worker, payload))
-            for worker, result in finished:
-                worker.task = None
-                assert result is not None
+                        worker.task = None
+                        finished.extend(payload)
+            for result in finished:
                 if on_result:
                     on_result(result)
                 yield result
             now = time.monotonic()
             for worker in list(pool.workers):
                 dead = worker.broken or not worker.process.is_alive()
-                late = worker.task is not None and now - worker.started > limit
+                late = worker.task is not None and now - worker.started > _allowed(worker, limit)
                 stuck = not worker.ready and now - worker.started > START_SECONDS
                 if not (dead or late or stuck):
                     continue
-                task = worker.task
+                chunk = worker.task
                 exitcode = worker.process.exitcode
                 was_ready = worker.ready
                 pool.retire(worker, kill=True)
@@ -275,8 +333,14 @@ def run_documents(
                     startup_failures += 1
                     if startup_failures >= 3:
                         raise WorkerError("worker processes cannot start (is the memory limit too low?)")
-                if task is not None:
-                    path, source = task
+                blamed = chunk[0] if chunk is not None and len(chunk) == 1 else None
+                if chunk is not None and late and not dead and worker.current is not None:
+                    blamed = next((task for task in chunk if task[1] == worker.current), blamed)
+                if chunk is not None:
+                    # run the others again, each alone, so that only the culprit fails
+                    queue.extendleft((task, True) for task in reversed(chunk) if task is not blamed)
+                if blamed is not None:
+                    _, source = blamed
                     if late and not dead:
                         reason, note = "timeout", f"reading took longer than {limit:g} s"
                     else:
@@ -289,3 +353,5 @@ def run_documents(
                     pool.start()
     finally:
         pool.close()
+        if stats is not None:
+            stats["worker_peak_rss_kb"] = max(stats.get("worker_peak_rss_kb", 0), pool.peak_rss_kb)

@@ -53,7 +53,7 @@ def _write_mail(tmp_path: Path, date_header: str, body: str = "Thanks for your n
 
 def _extract_mail(path: Path) -> dict[str, FieldValue]:
     doc = read_document(path, path.name)
-    values = process_text(doc, MAIL_SCHEMA, NoNer(), ExtractOptions(ner=None))
+    values = process_text(doc, MAIL_SCHEMA, (), ExtractOptions(ner=None))
     return {item.field: item for item in values}
 
 

@@ -37,11 +37,12 @@ class NerModel:
 
     def pipe(self, texts: Iterable[str], batch_size: int = 32) -> Iterator[tuple[Entity, ...]]:
         for doc in self.nlp.pipe(texts, batch_size=batch_size):
-            yield _entities(doc)
+            yield _entities(doc) if doc.text.strip() else ()
 
 
 def _entities(doc: Any) -> tuple[Entity, ...]:
     out = []
+    full = doc.text  # spaCy rebuilds Doc.text on every access: take it once
     for ent in doc.ents:
         if ent.label_ not in _KEEP:
             continue
@@ -50,7 +51,7 @@ def _entities(doc: Any) -> tuple[Entity, ...]:
         start = ent.start_char + (len(text) - len(text.lstrip()))
         end = ent.start_char + len(stripped)
         if end > start:
-            out.append(Entity(ent.label_, start, end, doc.text[start:end]))
+            out.append(Entity(ent.label_, start, end, full[start:end]))
     return tuple(out)
 
 

@@ -21,6 +21,7 @@ from __future__ import annotations
 import zipfile
 import zlib
 from pathlib import Path
+from typing import Any
 from xml.etree import ElementTree
 
 from ..errors import ReadFailure
@@ -71,12 +72,13 @@ def read_docx(path: Path, source: str, options: ExtractOptions) -> Document:
         # a package python-docx cannot make sense of: missing parts, rels without relationships ...
         raise ReadFailure("failed", "bad_docx", f"not a readable Word document ({type(exc).__name__})") from None
     builder = TextBuilder()
+    styles: dict[str | None, str] = {}
     for block in document.iter_inner_content():
         if hasattr(block, "rows"):
             builder.add_table([_row_cells(row) for row in block.rows])
             continue
         text = _ticks(block.text)
-        style = (block.style.name if block.style is not None else "") or ""
+        style = _style_name(block, styles)
         if not text.strip():
             builder.blank()
             continue
@@ -86,6 +88,16 @@ def read_docx(path: Path, source: str, options: ExtractOptions) -> Document:
         if style.lower().startswith(("heading", "title")):
             builder.blank()
     return builder.build(source, "reader.docx.v1")
+
+
+def _style_name(paragraph: Any, names: dict[str | None, str]) -> str:
+    """The paragraph's style name, looked up once per style id: python-docx resolves a style
+    (or the default one) by walking every style of the document each time it is asked."""
+    style_id = paragraph._p.style  # w:pStyle/@w:val; None for the default paragraph style
+    if style_id not in names:
+        style = paragraph.style
+        names[style_id] = (style.name if style is not None else "") or ""
+    return names[style_id]
 
 
 def check_container(path: Path, limits: Limits) -> None:

@@ -223,23 +223,145 @@ def _precheck(path: Path) -> bool:
 
 
 def read_pdf(path: Path, source: str, options: ExtractOptions) -> Document:
-    import pdfplumber  # lazy: pdfminer is slow to import
-
     has_end = _precheck(path)
-    _install_inflate_cap()
-    _INFLATE.cap = int(getattr(options.limits, "pdf_stream_bytes", STREAM_BYTES))
     with _quiet_logs() as collector:
-        pdf, warnings = _open(pdfplumber, path, options, has_end)
-        try:
-            builder, stats = _read_pages(pdf, path, options)
-        finally:
+        fast = _open_fast(path, options, has_end)
+        result = None
+        if fast is not None:
             try:
-                pdf.stream.close()  # not pdf.close(): it would enumerate every page first
-            except Exception:
-                pass
+                result = _read_mixed(fast, path, options, has_end)
+            except _Restart:
+                result = None
+            finally:
+                fast.close()
+        if result is None:
+            result = _read_plumber(path, options, has_end)
+    builder, stats, warnings = result
     builder.warnings.extend(warnings)
     builder.warnings.extend(sorted(collector.warnings))
     return _finish(builder, source, stats, collector.warnings, has_end)
+
+
+def _plumber_open(path: Path, options: ExtractOptions, has_end: bool) -> tuple[Any, list[str]]:
+    import pdfplumber  # lazy: pdfminer is slow to import
+
+    _install_inflate_cap()
+    _INFLATE.cap = int(getattr(options.limits, "pdf_stream_bytes", STREAM_BYTES))
+    return _open(pdfplumber, path, options, has_end)
+
+
+def _read_plumber(path: Path, options: ExtractOptions, has_end: bool) -> tuple[TextBuilder, _Stats, list[str]]:
+    """The whole document through pdfplumber."""
+    pdf, warnings = _plumber_open(path, options, has_end)
+    try:
+        builder, stats = _read_pages(pdf, path, options)
+    finally:
+        _close(pdf)
+    return builder, stats, warnings
+
+
+def _close(pdf: Any) -> None:
+    try:
+        pdf.stream.close()  # not pdf.close(): it would enumerate every page first
+    except Exception:
+        pass
+
+
+# --- the fast path: PDFium for ordinary pages (structurize/readers/pdfium.py) ------------------------
+
+#: False sends every PDF through pdfplumber (the tests compare both paths).
+FAST_PATH = True
+#: Files larger than this are not read into memory for PDFium; pdfplumber reads them.
+FAST_PATH_BYTES = 64 * 1024 * 1024
+
+
+class _Restart(Exception):
+    """pdfminer and PDFium disagree about the pages: read the whole document with pdfplumber."""
+
+
+def _open_fast(path: Path, options: ExtractOptions, has_end: bool) -> Any:
+    """A :class:`~structurize.readers.pdfium.FastDocument`, or None when pdfplumber reads it all."""
+    if not FAST_PATH or not has_end:
+        return None  # a missing end marker: pdfminer's recovery decides what is read
+    from . import pdfium
+
+    try:
+        if path.stat().st_size > FAST_PATH_BYTES:
+            return None
+        data = path.read_bytes()
+        found = pdfium.scan(data, stream_cap=int(getattr(options.limits, "pdf_stream_bytes", STREAM_BYTES)), content_budget=options.limits.chars)
+        return pdfium.FastDocument.open(data, found, options.limits.pdf_pages)
+    except pdfium.Refused:
+        return None
+    except Exception:  # noqa: BLE001 - anything unexpected: pdfplumber reads the file as before
+        return None
+
+
+class _Plumber:
+    """pdfplumber for the pages of a fast-path document that PDFium leaves to it; opened lazily."""
+
+    def __init__(self, path: Path, options: ExtractOptions, has_end: bool, stats: _Stats) -> None:
+        from pdfminer.pdfpage import PDFPage
+
+        self.pdf, self.warnings = _plumber_open(path, options, has_end)
+        try:
+            try:
+                _check_page_tree(self.pdf.doc, options.limits.pdf_pages)
+                stats.form_values = _form_values(self.pdf.doc)
+            except ReadFailure:
+                raise
+            except Exception as exc:  # noqa: BLE001
+                raise _classify(exc) from None
+            self.pages = PDFPage.create_pages(self.pdf.doc)
+        except BaseException:
+            _close(self.pdf)
+            raise
+        self.next = 0
+
+    def page_obj(self, index: int) -> Any:
+        page_obj = None
+        while self.next <= index:
+            try:
+                page_obj = next(self.pages)
+            except StopIteration:
+                raise _Restart() from None
+            except Exception as exc:  # noqa: BLE001 - a broken page tree
+                raise _classify(exc) from None
+            self.next += 1
+        return page_obj
+
+
+def _read_mixed(fast: Any, path: Path, options: ExtractOptions, has_end: bool) -> tuple[TextBuilder, _Stats, list[str]]:
+    """PDFium for the pages it reads as pdfplumber would, pdfplumber for the others."""
+    stats = _Stats()
+    builder = TextBuilder()
+    ocr = _ocr_reader(path, options, builder)
+    plumber: _Plumber | None = None
+    doctop = 0.0
+    try:
+        for index in range(fast.pages):
+            stats.pages += 1
+            builder.start_page()
+            try:
+                page = fast.read_page(index)
+            except Exception:  # noqa: BLE001 - pdfplumber reads the page instead
+                page = None
+            if page is not None:
+                stats.chars += page.chars
+                if stats.chars > options.limits.chars:
+                    raise _too_many_chars(options.limits.chars)
+                for _, text in sorted(_lines(page.words), key=itemgetter(0)):
+                    builder.add_line(text)
+                continue
+            if plumber is None:
+                plumber = _Plumber(path, options, has_end, stats)
+            doctop = _read_one(builder, plumber.pdf, plumber.page_obj(index), doctop, stats, options, ocr)
+    finally:
+        if ocr is not None:
+            ocr.close()
+        if plumber is not None:
+            _close(plumber.pdf)
+    return builder, stats, plumber.warnings if plumber is not None else []
 
 
 def _open(pdfplumber: Any, path: Path, options: ExtractOptions, has_end: bool) -> tuple[Any, list[str]]:
@@ -327,7 +449,6 @@ class _Stats:
 
 def _read_pages(pdf: Any, path: Path, options: ExtractOptions) -> tuple[TextBuilder, _Stats]:
     from pdfminer.pdfpage import PDFPage
-    from pdfplumber.page import Page
 
     limit = options.limits.pdf_pages
     stats = _Stats()
@@ -354,26 +475,34 @@ def _read_pages(pdf: Any, path: Path, options: ExtractOptions) -> tuple[TextBuil
                 raise _too_many_pages(limit)
             stats.pages += 1
             builder.start_page()
-            page = None
-            try:
-                page = Page(pdf, page_obj, page_number=stats.pages, initial_doctop=doctop)
-                doctop += page.height
-                _read_page(builder, pdf, page, stats, options, ocr)
-            except (ReadFailure, MemoryError):
-                raise
-            except Exception as exc:  # noqa: BLE001 - one broken page must not fail the others
-                failure = _classify(exc)
-                if failure.code in ("stream_too_large", "memory_limit", "too_many_chars"):
-                    raise failure from None
-                stats.failed_pages += 1
-                stats.failure = failure
-            finally:
-                if page is not None:
-                    page.close()  # drop the page's layout and caches before the next one
+            doctop = _read_one(builder, pdf, page_obj, doctop, stats, options, ocr)
     finally:
         if ocr is not None:
             ocr.close()
     return builder, stats
+
+
+def _read_one(builder: TextBuilder, pdf: Any, page_obj: Any, doctop: float, stats: _Stats, options: ExtractOptions, ocr: Any) -> float:
+    """Page ``stats.pages`` through pdfplumber; returns the next page's top in the document."""
+    from pdfplumber.page import Page
+
+    page = None
+    try:
+        page = Page(pdf, page_obj, page_number=stats.pages, initial_doctop=doctop)
+        doctop += page.height
+        _read_page(builder, pdf, page, stats, options, ocr)
+    except (ReadFailure, MemoryError):
+        raise
+    except Exception as exc:  # noqa: BLE001 - one broken page must not fail the others
+        failure = _classify(exc)
+        if failure.code in ("stream_too_large", "memory_limit", "too_many_chars"):
+            raise failure from None
+        stats.failed_pages += 1
+        stats.failure = failure
+    finally:
+        if page is not None:
+            page.close()  # drop the page's layout and caches before the next one
+    return doctop
 
 
 def _too_many_pages(limit: int) -> ReadFailure:
