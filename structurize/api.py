@@ -9,7 +9,8 @@
 from __future__ import annotations
 
 import time
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from itertools import islice
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
@@ -23,8 +24,9 @@ from .options import ExtractOptions
 from .readers import read_document
 from .resolve import companions, period_candidate, resolve_field
 from .schema import TargetSchema, load_schema
+from .spool import ResultSpool
 from .types import Candidate, Document, DocumentResult, DocStatus, FieldValue, ValueStatus
-from .validate import check_unique, flag_unusual_gaps, to_text, validate_value
+from .validate import to_text, validate_value
 
 __all__ = ["ExtractionResult", "discover", "extract_document", "extract_folder", "load_schema"]
 
@@ -35,10 +37,15 @@ BATCH_SIZE = 16
 
 @dataclass(frozen=True)
 class ExtractionResult:
-    """The outcome of a run: one :class:`DocumentResult` per input file, in path order."""
+    """The outcome of a run: one :class:`DocumentResult` per input file, in path order.
+
+    ``documents`` is any sequence: a tuple, or (from :func:`extract_folder`) a
+    :class:`~structurize.spool.ResultSpool` that reads the results from disk as they are
+    iterated, so that a large folder does not have to fit in memory.
+    """
 
     schema: TargetSchema
-    documents: tuple[DocumentResult, ...]
+    documents: Sequence[DocumentResult]
     input_root: str = ""
     seconds: float = 0.0
     settings: dict[str, Any] = field(default_factory=dict)
@@ -48,55 +55,14 @@ class ExtractionResult:
     def rows(self) -> list[dict[str, str]]:
         """The wide table: one dict per document, the contract's output forms."""
         names = self.schema.field_names
-        out = []
-        for doc in self.documents:
-            row = {"document": doc.source}
-            for name in names:
-                item = doc.value(name)
-                row[name] = to_text(item.value) if item is not None and item.value is not None else ""
-            out.append(row)
-        return out
+        return [table_row(doc, names) for doc in self.documents]
 
     def values(self) -> list[dict[str, Any]]:
         """The long table: one dict per (document, field)."""
-        out = []
-        for doc in self.documents:
-            for item in doc.values:
-                out.append(
-                    {
-                        "document": doc.source,
-                        "field": item.field,
-                        "value": to_text(item.value),
-                        "confidence": item.confidence,
-                        "status": str(item.status),
-                        "start": item.span.start if item.span is not None else None,
-                        "end": item.span.end if item.span is not None else None,
-                        "page": item.page,
-                        "snippet": item.snippet,
-                        "extractor": item.extractor,
-                        "reason": item.reason,
-                        "alternatives": " | ".join(to_text(alt.value) for alt in item.alternatives),
-                    }
-                )
-        return out
+        return [row for doc in self.documents for row in value_rows(doc)]
 
     def document_rows(self) -> list[dict[str, Any]]:
-        return [
-            {
-                "document": doc.source,
-                "status": str(doc.status),
-                "reason": doc.reason,
-                "note": doc.note,
-                "reader": doc.reader,
-                "encoding": doc.encoding or "",
-                "pages": doc.pages,
-                "chars": doc.chars,
-                "warnings": " ".join(doc.warnings),
-                "seconds": round(doc.seconds, 3),
-                "sha256": doc.sha256,
-            }
-            for doc in self.documents
-        ]
+        return [document_row(doc) for doc in self.documents]
 
     def to_frames(self) -> tuple[Any, Any]:
         """``(table, values)`` as pandas DataFrames."""
@@ -125,11 +91,61 @@ class ExtractionResult:
         return counts
 
 
+def table_row(doc: DocumentResult, names: Sequence[str]) -> dict[str, str]:
+    """One row of table.csv: the document, then each field's output form ("" when missing)."""
+    row = {"document": doc.source}
+    for name in names:
+        item = doc.value(name)
+        row[name] = to_text(item.value) if item is not None and item.value is not None else ""
+    return row
+
+
+def value_rows(doc: DocumentResult) -> list[dict[str, Any]]:
+    """The rows of values.csv for one document: one per field."""
+    return [
+        {
+            "document": doc.source,
+            "field": item.field,
+            "value": to_text(item.value),
+            "confidence": item.confidence,
+            "status": str(item.status),
+            "start": item.span.start if item.span is not None else None,
+            "end": item.span.end if item.span is not None else None,
+            "page": item.page,
+            "snippet": item.snippet,
+            "extractor": item.extractor,
+            "reason": item.reason,
+            "alternatives": " | ".join(to_text(alt.value) for alt in item.alternatives),
+        }
+        for item in doc.values
+    ]
+
+
+def document_row(doc: DocumentResult) -> dict[str, Any]:
+    """The row of documents.csv for one input file."""
+    return {
+        "document": doc.source,
+        "status": str(doc.status),
+        "reason": doc.reason,
+        "note": doc.note,
+        "reader": doc.reader,
+        "encoding": doc.encoding or "",
+        "pages": doc.pages,
+        "chars": doc.chars,
+        "warnings": " ".join(doc.warnings),
+        "seconds": round(doc.seconds, 3),
+        "sha256": doc.sha256,
+    }
+
+
 # --- discovery ---------------------------------------------------------------------------
 
 
-def discover(root: Path) -> Iterator[tuple[Path, str]]:
+def discover(root: Path, *, ordered: bool = True) -> Iterator[tuple[Path, str]]:
     """Files under ``root`` in path order, as ``(path, relative source)``.
+
+    With ``ordered=False`` they come in the order the file system lists them, as the walk
+    finds them, so that a large folder is never held in memory as one list.
 
     Hidden files and folders (names starting with ".") are skipped; everything else is
     listed, including formats no reader handles and things that are not regular files
@@ -157,39 +173,42 @@ def discover(root: Path) -> Iterator[tuple[Path, str]]:
         yield (Path(os.path.realpath(root)) if root.is_symlink() and root.is_file() else root), shown((root.name,))
         return
     base = os.path.realpath(root)
-    found: list[tuple[str, Path]] = []
-    folders: list[tuple[str, tuple[str, ...]]] = [(str(root), ())]
-    while folders:
-        folder, parts = folders.pop()
-        try:
-            with os.scandir(folder) as entries:
-                listed = list(entries)
-        except OSError:
-            if parts:  # a folder that cannot be listed is reported, not silently dropped
-                found.append((shown(parts), Path(folder)))
-            continue
-        for entry in listed:
-            if entry.name.startswith("."):
-                continue
-            relative = (*parts, entry.name)
+
+    def walk() -> Iterator[tuple[str, Path]]:
+        folders: list[tuple[str, tuple[str, ...]]] = [(str(root), ())]
+        while folders:
+            folder, parts = folders.pop()
             try:
-                if entry.is_symlink():
-                    target = os.path.realpath(entry.path)
-                    inside = os.path.commonpath([base, target]) == base
-                    info = os.stat(target) if inside else None
-                    if info is not None and stat.S_ISDIR(info.st_mode):
-                        continue  # its files are listed where they really are
-                    if info is not None and stat.S_ISREG(info.st_mode):
-                        found.append((shown(relative), Path(target)))
+                entries = os.scandir(folder)
+            except OSError:
+                if parts:  # a folder that cannot be listed is reported, not silently dropped
+                    yield shown(parts), Path(folder)
+                continue
+            with entries:
+                for entry in entries:
+                    if entry.name.startswith("."):
                         continue
-                    found.append((shown(relative), Path(entry.path)))  # reported: symlink_skipped
-                elif entry.is_dir(follow_symlinks=False):
-                    folders.append((entry.path, relative))
-                else:
-                    found.append((shown(relative), Path(entry.path)))
-            except (OSError, ValueError, RuntimeError):  # a link loop, a vanished entry
-                found.append((shown(relative), Path(entry.path)))
-    for source, path in sorted(found, key=lambda item: item[0]):
+                    relative = (*parts, entry.name)
+                    try:
+                        if entry.is_symlink():
+                            target = os.path.realpath(entry.path)
+                            inside = os.path.commonpath([base, target]) == base
+                            info = os.stat(target) if inside else None
+                            if info is not None and stat.S_ISDIR(info.st_mode):
+                                continue  # its files are listed where they really are
+                            if info is not None and stat.S_ISREG(info.st_mode):
+                                yield shown(relative), Path(target)
+                                continue
+                            yield shown(relative), Path(entry.path)  # reported: symlink_skipped
+                        elif entry.is_dir(follow_symlinks=False):
+                            folders.append((entry.path, relative))
+                        else:
+                            yield shown(relative), Path(entry.path)
+                    except (OSError, ValueError, RuntimeError):  # a link loop, a vanished entry
+                        yield shown(relative), Path(entry.path)
+
+    found = sorted(walk(), key=lambda item: item[0]) if ordered else walk()
+    for source, path in found:
         yield path, source
 
 
@@ -246,6 +265,23 @@ def extract_documents(
         step(doc.source)
         results.append(_finish_document(doc, schema, found, options, seconds + ner_share))
     return results
+
+
+def extract_tasks(
+    tasks: Iterable[tuple[Path, str]], schema: TargetSchema, options: ExtractOptions, *, stats: dict[str, int] | None = None
+) -> Iterator[DocumentResult]:
+    """Extract ``(path, source)`` tasks, yielding each result as it is done: in worker
+    processes, or in this process, a batch at a time, with ``workers=0``.  ``tasks`` is
+    read as it goes (it may be a generator)."""
+    if options.workers == 0:
+        ner = ner_for(options)
+        pending = iter(tasks)
+        while batch := list(islice(pending, BATCH_SIZE)):
+            yield from extract_documents(batch, schema, options=options, ner=ner)
+        return
+    from .workers import run_documents
+
+    yield from run_documents(tasks, schema, options, stats=stats)
 
 
 def _finish_document(doc: Document, schema: TargetSchema, entities: tuple[Entity, ...], options: ExtractOptions,
@@ -336,8 +372,6 @@ def extract_folder(
         raise UsageError(f"input not found: {root}")
     options = options.for_schema(schema.time_limit, schema.memory_limit)
     started = time.perf_counter()
-    tasks = list(discover(root))
-    results: list[DocumentResult] = []
     run_id = None
     fingerprint = ""
     stats: dict[str, int] = {}
@@ -345,31 +379,21 @@ def extract_folder(
         from . import incremental
 
         results, report = incremental.run(
-            tasks, schema, store, options, str(root.resolve()), reextract=reextract, progress=progress, notify=notify,
+            list(discover(root)), schema, store, options, str(root.resolve()), reextract=reextract, progress=progress, notify=notify,
             stats=stats,
         )
         run_id = report.run_id
         fingerprint = report.fingerprint
-    elif options.workers == 0:
-        ner = ner_for(options)
-        for start in range(0, len(tasks), BATCH_SIZE):
-            for result in extract_documents(tasks[start : start + BATCH_SIZE], schema, options=options, ner=ner):
-                results.append(result)
-                if progress is not None:
-                    progress(result.source)
     else:
-        from .workers import run_documents
-
-        for result in run_documents(tasks, schema, options, stats=stats):
-            results.append(result)
+        results = ResultSpool(schema)
+        # the results are put in path order by the spool: the walk need not sort them
+        for result in extract_tasks(discover(root, ordered=False), schema, options, stats=stats):
+            results.add(result)
             if progress is not None:
                 progress(result.source)
-    if store is None:
-        results.sort(key=lambda result: result.source)
-        results = flag_unusual_gaps(schema, check_unique(schema, results))
     return ExtractionResult(
         schema=schema,
-        documents=tuple(results),
+        documents=results,
         input_root=str(root),
         seconds=time.perf_counter() - started,
         settings={
@@ -387,7 +411,7 @@ def extract_folder(
 
 def count_inputs(input_path: str | Path) -> int:
     root = Path(input_path)
-    return sum(1 for _ in discover(root)) if root.exists() else 0
+    return sum(1 for _ in discover(root, ordered=False)) if root.exists() else 0
 
 
 def failed_documents(result: ExtractionResult) -> list[DocumentResult]:

@@ -344,7 +344,7 @@ def export_command(
             if run_id is not None and opened.run(run_id) is None:
                 raise UsageError(f"{_escape(str(store))}: no run {run_id}")
             documents = incremental.export(opened, target, run_id)
-        result = api.ExtractionResult(schema=target, documents=tuple(documents), settings={"run": run_id})
+        result = api.ExtractionResult(schema=target, documents=documents, settings={"run": run_id})
         paths = _write(result, output, not plain_csv)
     except StructurizeError as exc:
         raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None

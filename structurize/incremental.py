@@ -18,12 +18,13 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
+from .api import extract_tasks
 from .options import ExtractOptions
 from .readers import file_sha256
 from .schema.model import TargetSchema
+from .spool import ResultSpool
 from .store import Store
 from .types import DocumentResult
-from .validate import check_unique, flag_unusual_gaps
 from .version import EXTRACTOR_VERSION, __version__
 
 #: Reasons that say more about the machine than the document: such a document is retried.
@@ -103,7 +104,7 @@ def run(
     progress: Callable[[str], None] | None = None,
     notify: Notify | None = None,
     stats: dict[str, int] | None = None,
-) -> tuple[list[DocumentResult], RunReport]:
+) -> tuple[ResultSpool, RunReport]:
     """One incremental run: plan, extract what is needed (one transaction each), rebuild."""
     say = notify or (lambda message: None)
     hashes = field_hashes(schema)
@@ -145,7 +146,7 @@ def run(
             progress(source)
     needed_by_source = {source: needed for _, source, needed in plan}
     unrecorded: list[DocumentResult] = []
-    for result in _extract(plan, schema, options, stats):
+    for result in extract_tasks([(path, source) for path, source, _ in plan], schema, options, stats=stats):
         fields = needed_by_source[result.source]
         if not result.sha256 and shas[result.source]:
             # The worker did not come back (timeout, crash): record the failure under the hash
@@ -180,29 +181,16 @@ def fingerprint(schema: TargetSchema, store: Store, documents: list[tuple[str, s
 
 
 def finish(schema: TargetSchema, store: Store, documents: list[tuple[str, str]],
-           extra: list[DocumentResult] | None = None) -> list[DocumentResult]:
-    """Stored results for these documents (plus ``extra`` ones), with the table-wide checks applied."""
-    results = store.results(schema, field_hashes(schema), EXTRACTOR_VERSION, documents) + list(extra or ())
-    results.sort(key=lambda result: result.source)
-    return flag_unusual_gaps(schema, check_unique(schema, results))
+           extra: list[DocumentResult] | None = None) -> ResultSpool:
+    """Stored results for these documents (plus ``extra`` ones), with the table-wide checks
+    applied, in a spool: read from the store in chunks, never all in memory at once."""
+    spool = ResultSpool(schema, store.results(schema, field_hashes(schema), EXTRACTOR_VERSION, documents))
+    for result in extra or ():
+        spool.add(result)
+    return spool
 
 
-def _extract(plan: list[tuple[Path, str, list[str]]], schema: TargetSchema, options: ExtractOptions,  # type: ignore[no-untyped-def]
-             stats: dict[str, int] | None = None):
-    tasks = [(path, source) for path, source, _ in plan]
-    if options.workers == 0:
-        from .api import extract_document, ner_for
-
-        ner = ner_for(options)
-        for path, source in tasks:
-            yield extract_document(path, schema, source=source, options=options, ner=ner)
-        return
-    from .workers import run_documents
-
-    yield from run_documents(tasks, schema, options, stats=stats)
-
-
-def export(store: Store, schema: TargetSchema, run_id: int | None = None) -> list[DocumentResult]:
+def export(store: Store, schema: TargetSchema, run_id: int | None = None) -> ResultSpool:
     """Results from the store without extracting: one run's documents, or the whole workspace."""
     documents = store.run_documents(run_id) if run_id is not None else store.workspace_documents(schema.name)
     return finish(schema, store, documents)

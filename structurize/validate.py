@@ -1,7 +1,7 @@
 """Cast each value to its Table Schema type and check the field's constraints.
 
 Nothing here raises for a bad value: a value that fails becomes ``invalid`` with the
-reason.  ``unique`` is checked across the whole table by :func:`check_unique`.
+reason.  ``unique`` is checked across the whole table by :class:`TableChecks`.
 Output forms follow the contract: ISO 8601 dates, plain decimals, ``true``/``false``.
 """
 
@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import datetime as dt
 import re
-from collections import defaultdict
+from collections import Counter
 from dataclasses import replace
 from decimal import Decimal, InvalidOperation
 from typing import Any
@@ -149,65 +149,88 @@ def validate_value(spec: FieldSpec, item: FieldValue) -> FieldValue:
     return replace(item, value=value)
 
 
-def check_unique(schema: TargetSchema, results: list[DocumentResult]) -> list[DocumentResult]:
-    """Mark values of ``unique`` (and primary-key) fields that repeat across documents."""
-    unique = [spec.name for spec in schema.fields if spec.constraints.get("unique") or spec.name in schema.primary_key]
-    if not unique:
-        return results
-    seen: dict[str, dict[str, list[int]]] = {name: defaultdict(list) for name in unique}
-    for index, result in enumerate(results):
-        for item in result.values:
-            if item.field in seen and item.value is not None:
-                seen[item.field][to_text(item.value)].append(index)
-    duplicated = {
-        (name, index) for name, table in seen.items() for indexes in table.values() if len(indexes) > 1 for index in indexes
-    }
-    if not duplicated:
-        return results
-    out = []
-    for index, result in enumerate(results):
-        values = tuple(
-            replace(item, status=ValueStatus.INVALID, reason="not unique across the table")
-            if (item.field, index) in duplicated
-            else item
-            for item in result.values
-        )
-        out.append(replace(result, values=values))
-    return out
-
-
 #: A field filled in at least this share of a batch is "usually present" ...
 USUALLY_PRESENT = 0.75
 #: ... judged only on batches of at least this many readable documents.
 USUALLY_PRESENT_MIN_DOCUMENTS = 5
+NOT_UNIQUE = "not unique across the table"
+
+
+class TableChecks:
+    """The checks that need the whole table, gathered one document at a time.
+
+    ``add`` every result first, then ``apply`` gives each result with the table-wide
+    verdicts: a value of a ``unique`` (or primary-key) field that occurs in more than one
+    document is ``invalid``; a value not found in a document when at least
+    :data:`USUALLY_PRESENT` of a batch of :data:`USUALLY_PRESENT_MIN_DOCUMENTS` or more
+    readable documents have it goes to review ("usually present").  Only counts are kept
+    (and, for unique fields, each distinct value), so that a run's memory does not hold
+    its results.
+    """
+
+    def __init__(self, schema: TargetSchema, *, unique: bool = True, gaps: bool = True) -> None:
+        self.names = schema.field_names
+        self.unique = (
+            {spec.name for spec in schema.fields if spec.constraints.get("unique") or spec.name in schema.primary_key} if unique else set()
+        )
+        self.gaps = gaps
+        self.seen: dict[str, Counter[str]] = {name: Counter() for name in self.unique}
+        self.readable = 0
+        self.filled: Counter[str] = Counter()
+        self._usual: dict[str, str] | None = None
+
+    def add(self, result: DocumentResult) -> None:
+        self._usual = None
+        if result.status.readable:
+            self.readable += 1
+        for item in result.values:
+            if item.value is None:
+                continue
+            if item.field in self.seen:
+                self.seen[item.field][to_text(item.value)] += 1
+            if result.status.readable:
+                self.filled[item.field] += 1
+
+    def usual(self) -> dict[str, str]:
+        """Fields usually present in this batch, with the reason a gap in them is given."""
+        if self._usual is None:
+            self._usual = {}
+            if self.gaps and self.readable >= USUALLY_PRESENT_MIN_DOCUMENTS:
+                for name in self.names:
+                    if self.filled[name] / self.readable >= USUALLY_PRESENT:
+                        self._usual[name] = f"usually present (found in {self.filled[name]} of {self.readable} documents)"
+        return self._usual
+
+    def apply(self, result: DocumentResult) -> DocumentResult:
+        usual = self.usual() if result.status.readable else {}
+        changed = False
+        values = []
+        for item in result.values:
+            if item.value is not None and item.field in self.seen and self.seen[item.field][to_text(item.value)] > 1:
+                item = replace(item, status=ValueStatus.INVALID, reason=NOT_UNIQUE)
+                changed = True
+            elif item.field in usual and item.value is None and not item.extractor and item.status is ValueStatus.MISSING:
+                # a value the document itself says is unknown ("TBD", "pending") keeps its status
+                item = replace(item, status=ValueStatus.REVIEW, confidence=min(item.confidence, 0.5), reason=usual[item.field])
+                changed = True
+            values.append(item)
+        return replace(result, values=tuple(values)) if changed else result
+
+
+def check_unique(schema: TargetSchema, results: list[DocumentResult]) -> list[DocumentResult]:
+    """Mark values of ``unique`` (and primary-key) fields that repeat across documents."""
+    return _checked(TableChecks(schema, gaps=False), results)
 
 
 def flag_unusual_gaps(schema: TargetSchema, results: list[DocumentResult]) -> list[DocumentResult]:
-    """Send to review a value that was not found when most documents of the batch have it.
+    """Send to review a value that was not found when most documents of the batch have it."""
+    return _checked(TableChecks(schema, unique=False), results)
 
-    A value the document itself says is unknown ("TBD", "pending") keeps its status.
-    """
-    readable = [r for r in results if r.status.readable]
-    if len(readable) < USUALLY_PRESENT_MIN_DOCUMENTS:
-        return results
-    usual = {}
-    for spec in schema.fields:
-        filled = sum(1 for r in readable if (v := r.value(spec.name)) is not None and v.value is not None)
-        if filled / len(readable) >= USUALLY_PRESENT:
-            usual[spec.name] = f"usually present (found in {filled} of {len(readable)} documents)"
-    out = []
+
+def _checked(checks: TableChecks, results: list[DocumentResult]) -> list[DocumentResult]:
     for result in results:
-        if not result.status.readable:
-            out.append(result)
-            continue
-        values = tuple(
-            replace(item, status=ValueStatus.REVIEW, confidence=min(item.confidence, 0.5), reason=usual[item.field])
-            if item.field in usual and item.value is None and not item.extractor and item.status is ValueStatus.MISSING
-            else item
-            for item in result.values
-        )
-        out.append(replace(result, values=values))
-    return out
+        checks.add(result)
+    return [checks.apply(result) for result in results]
 
 
 def format_number(value: Decimal | int) -> str:

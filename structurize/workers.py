@@ -117,7 +117,17 @@ def _test_fault(source: str) -> None:
         del hog
 
 
-def _peak_rss_kb() -> int:
+def peak_rss_kb() -> int:
+    """This process's peak resident memory in kB: Linux's ``VmHWM``, which (unlike
+    ``ru_maxrss``) does not carry over a parent's peak across ``exec``; elsewhere
+    ``ru_maxrss``."""
+    try:
+        with open("/proc/self/status", encoding="ascii", errors="replace") as status:
+            for line in status:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1])
+    except (OSError, ValueError, IndexError):
+        pass
     try:
         import resource
     except ImportError:
@@ -144,7 +154,7 @@ def _worker_main(conn: Connection, schema: TargetSchema, options: ExtractOptions
         except EOFError:
             return
         if message is None:
-            conn.send(("bye", _peak_rss_kb()))
+            conn.send(("bye", peak_rss_kb()))
             return
         chunk: list[Task] = message
         def step(source: str | None) -> None:
@@ -228,17 +238,52 @@ MAX_CHUNK = 8
 MEMORY_EXIT = 86
 
 
-def _next_chunk(queue: deque[tuple[Task, bool]], workers: int) -> list[Task]:
-    """A chunk for an idle worker: small near the end of the queue, so the last documents
-    spread over all workers; one document when it has to run alone."""
-    task, alone = queue.popleft()
-    chunk = [task]
-    if alone:
+class _TaskQueue:
+    """The documents still to do: first those put back to run alone, then the input, read
+    only a little ahead, so that a large folder is never held as one list."""
+
+    def __init__(self, tasks: Iterable[Task], workers: int) -> None:
+        self._source = iter(tasks)
+        self._items: deque[tuple[Task, bool]] = deque()  # (task, must run alone)
+        self._exhausted = False
+        self._lookahead = 2 * workers * MAX_CHUNK + 1
+
+    def _fill(self, count: int) -> None:
+        while not self._exhausted and len(self._items) < count:
+            try:
+                self._items.append((next(self._source), False))
+            except StopIteration:
+                self._exhausted = True
+
+    def __len__(self) -> int:
+        """Tasks known to be waiting (the input may hold more)."""
+        return len(self._items)
+
+    def __bool__(self) -> bool:
+        self._fill(1)
+        return bool(self._items)
+
+    def known(self, count: int) -> int:
+        """How many tasks wait, counting at most ``count``."""
+        self._fill(count)
+        return min(count, len(self._items))
+
+    def put_back(self, tasks: list[Task]) -> None:
+        """Run these again, each alone, before anything else."""
+        self._items.extendleft((task, True) for task in reversed(tasks))
+
+    def next_chunk(self, workers: int) -> list[Task]:
+        """A chunk for an idle worker: small near the end of the input, so the last
+        documents spread over all workers; one document when it has to run alone."""
+        self._fill(self._lookahead)
+        task, alone = self._items.popleft()
+        chunk = [task]
+        if alone:
+            return chunk
+        size = max(1, min(MAX_CHUNK, (len(self._items) + 1) // (2 * workers)))
+        while len(chunk) < size and self._items and not self._items[0][1]:
+            chunk.append(self._items.popleft()[0])
         return chunk
-    size = max(1, min(MAX_CHUNK, (len(queue) + 1) // (2 * workers)))
-    while len(chunk) < size and queue and not queue[0][1]:
-        chunk.append(queue.popleft()[0])
-    return chunk
 
 
 def _allowed(worker: _Worker, limit: float) -> float:
@@ -271,10 +316,11 @@ def run_documents(
     ``stats`` (optional) receives ``worker_peak_rss_kb``: the largest peak RSS a worker
     reported when it stopped.
     """
-    queue: deque[tuple[Task, bool]] = deque((task, False) for task in tasks)  # (task, must run alone)
+    wanted = options.workers or default_workers()
+    queue = _TaskQueue(tasks, wanted)
     if not queue:
         return
-    size = min(options.workers or default_workers(), len(queue))
+    size = queue.known(wanted)
     pool = _Pool(schema, options, size)
     limit = options.limits.seconds
     startup_failures = 0
@@ -285,7 +331,7 @@ def run_documents(
             now = time.monotonic()
             for worker in pool.workers:
                 if worker.ready and worker.task is None and queue:
-                    worker.task = _next_chunk(queue, len(pool.workers))
+                    worker.task = queue.next_chunk(len(pool.workers))
                     worker.current = None
                     worker.started = now
                     worker.conn.send(worker.task)
@@ -338,7 +384,7 @@ def run_documents(
                     blamed = next((task for task in chunk if task[1] == worker.current), blamed)
                 if chunk is not None:
                     # run the others again, each alone, so that only the culprit fails
-                    queue.extendleft((task, True) for task in reversed(chunk) if task is not blamed)
+                    queue.put_back([task for task in chunk if task is not blamed])
                 if blamed is not None:
                     _, source = blamed
                     if late and not dead:

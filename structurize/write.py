@@ -3,15 +3,16 @@
 CSV files follow RFC 4180 (comma, double quotes doubled, CRLF line ends) and are UTF-8 with
 a byte-order mark by default, so that Excel on Windows opens them as UTF-8 on double-click;
 pandas, the csv module (``encoding="utf-8-sig"``) and frictionless read the mark correctly.
-(Written with the csv module, not pandas: an incremental run that changes nothing should
-not pay pandas' import; ``ExtractionResult.to_frames`` gives DataFrames.)
+(Written with the csv module, not pandas: rows are streamed from the run's results to the
+files, so memory does not grow with the folder, and an incremental run that changes
+nothing does not pay pandas' import; ``ExtractionResult.to_frames`` gives DataFrames.)
 Every text cell that starts with a character a spreadsheet treats as a formula
 (``= + - @``, tab, CR, LF, NUL, per OWASP "CSV Injection" and ASVS 5.0 1.2.10) gets a
 leading apostrophe, and every field is quoted.  Numbers and dates that passed validation
 are written in canonical form and are not prefixed (a cell of a typed column that is not
 in canonical form, such as the raw text of an invalid value, is guarded like text).  Each
 file is written to a temporary file in the same folder, synced, then renamed over the old
-one.
+one, only once every file is complete.
 
 No writer may crash halfway on what a document contained (RELIABILITY.md §1.9, catalogue
 T11): before anything is written, NUL and the other C0/C1 control characters (except tab,
@@ -23,21 +24,22 @@ each changed value in values.csv says so.
 
 from __future__ import annotations
 
+import codecs
 import csv
 import io
 import json
 import os
 import re
 import tempfile
+from collections import Counter
 from collections.abc import Iterable, Sequence
 from pathlib import Path
-from typing import Any
+from typing import Any, BinaryIO
 
-
-from .api import ExtractionResult
+from .api import ExtractionResult, document_row, table_row, value_rows
 from .faults import fault_point
 from .schema.model import FieldSpec, TargetSchema
-from .types import ValueStatus
+from .types import DocumentResult, ValueStatus
 
 #: First characters that make a spreadsheet evaluate a cell (OWASP + ASVS 1.2.10).
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r", "\n", "\0")
@@ -93,13 +95,51 @@ def unguard(text: str) -> str:
 
 def csv_bytes(header: Sequence[str], rows: Iterable[Sequence[Any]], *, bom: bool = True, guarded: Sequence[bool] | None = None) -> bytes:
     """RFC 4180 CSV as bytes.  ``guarded[i]`` says whether column i gets the formula guard."""
-    buffer = io.StringIO(newline="")
-    writer = csv.writer(buffer, quoting=csv.QUOTE_ALL, lineterminator="\r\n")
-    writer.writerow([guard(sanitise(str(name))) for name in header])
-    for row in rows:
-        writer.writerow([guard(value) if (guarded is None or guarded[i]) else _typed(value) for i, value in enumerate(row)])
-    data = _no_surrogates(buffer.getvalue()).encode("utf-8")  # never an UnicodeEncodeError halfway
-    return (b"\xef\xbb\xbf" + data) if bom else data
+    buffer = io.BytesIO()
+    write_csv(buffer, header, rows, bom=bom, guarded=guarded)
+    return buffer.getvalue()
+
+
+def write_csv(binary: BinaryIO, header: Sequence[str], rows: Iterable[Sequence[Any]], *, bom: bool = True,
+              guarded: Sequence[bool] | None = None) -> None:
+    """Write RFC 4180 CSV (UTF-8, every field quoted, CRLF) to a binary file."""
+    stream = CsvStream(binary, header, bom=bom, guarded=guarded)
+    stream.write(rows)
+    stream.close()
+
+
+class CsvStream:
+    """RFC 4180 CSV written to a binary file a few rows at a time: the header (and the
+    byte-order mark) first, then :meth:`write` as often as needed, then :meth:`close`,
+    which leaves the binary file open for its owner."""
+
+    def __init__(self, binary: BinaryIO, header: Sequence[str], *, bom: bool = True, guarded: Sequence[bool] | None = None) -> None:
+        if bom:
+            binary.write(b"\xef\xbb\xbf")
+        self._text = io.TextIOWrapper(binary, encoding="utf-8", errors=_REPLACE_UNENCODABLE, newline="")
+        self._writer = csv.writer(self._text, quoting=csv.QUOTE_ALL, lineterminator="\r\n")
+        self._guarded = guarded
+        self._writer.writerow([guard(sanitise(str(name))) for name in header])
+
+    def write(self, rows: Iterable[Sequence[Any]]) -> None:
+        guarded = self._guarded
+        for row in rows:
+            self._writer.writerow([guard(value) if (guarded is None or guarded[i]) else _typed(value) for i, value in enumerate(row)])
+
+    def close(self) -> None:
+        self._text.flush()
+        self._text.detach()
+
+
+def _replace_unencodable(error: UnicodeError) -> tuple[str, int]:
+    """Lone surrogates become U+FFFD: never a UnicodeEncodeError halfway through a file."""
+    if isinstance(error, UnicodeEncodeError):
+        return REPLACEMENT, error.end
+    raise error
+
+
+_REPLACE_UNENCODABLE = "structurize.replacement"
+codecs.register_error(_REPLACE_UNENCODABLE, _replace_unencodable)
 
 
 def _typed(value: Any) -> str:
@@ -110,26 +150,70 @@ def _typed(value: Any) -> str:
     return text if not text or _CANONICAL.fullmatch(text) else guard(text)
 
 
+class OutputFiles:
+    """Files written to temporaries beside their final names, then renamed over the old
+    files one after the other, each synced first; readers see an old file or a new one,
+    never half of one.  If anything fails before :meth:`commit`, every temporary is removed
+    and the old files stay as they were."""
+
+    def __init__(self) -> None:
+        self._pending: list[tuple[Path, str, BinaryIO]] = []
+
+    def open(self, path: Path) -> BinaryIO:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+        binary = os.fdopen(handle, "wb")
+        self._pending.append((path, temporary, binary))
+        return binary
+
+    def commit(self) -> None:
+        try:
+            for path, temporary, binary in self._pending:
+                binary.flush()
+                os.fsync(binary.fileno())
+                binary.close()
+                fault_point("before_output_rename")
+                os.replace(temporary, path)
+                fault_point("after_output_rename")
+        except BaseException:
+            self.discard()
+            raise
+        folders = {path.parent for path, _, _ in self._pending}
+        self._pending = []
+        for folder in folders:
+            _sync_folder(folder)
+
+    def discard(self) -> None:
+        for _, temporary, binary in self._pending:
+            try:
+                binary.close()  # may fail again on a full disk: the temporary goes anyway
+            except OSError:
+                pass
+            try:
+                os.unlink(temporary)
+            except OSError:
+                pass
+        self._pending = []
+
+    def __enter__(self) -> OutputFiles:
+        return self
+
+    def __exit__(self, kind: object, *rest: object) -> None:
+        if kind is None:
+            self.commit()
+        else:
+            self.discard()
+
+
 def atomic_write(path: Path, data: bytes) -> None:
     """Write ``data`` to ``path`` so that readers see the old file or the new one, never half."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    with OutputFiles() as files:
+        files.open(path).write(data)
+
+
+def _sync_folder(folder: Path) -> None:
     try:
-        with os.fdopen(handle, "wb") as out:
-            out.write(data)
-            out.flush()
-            os.fsync(out.fileno())
-        fault_point("before_output_rename")
-        os.replace(temporary, path)
-        fault_point("after_output_rename")
-    except BaseException:
-        try:
-            os.unlink(temporary)
-        except OSError:
-            pass
-        raise
-    try:
-        directory = os.open(path.parent, os.O_RDONLY)
+        directory = os.open(folder, os.O_RDONLY)
     except OSError:
         return
     try:
@@ -160,8 +244,16 @@ def _remove_stale_temporaries(out: Path) -> None:
                 pass
 
 
+VALUES_GUARD = [True, True, True, False, False, False, False, False, True, False, True, True]
+
+
 def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = True) -> dict[str, Path]:
-    """Write every output file of ``result`` into ``out_dir``; return their paths."""
+    """Write every output file of ``result`` into ``out_dir``; return their paths.
+
+    The documents are read once, in order, and streamed into table.csv, values.csv and
+    documents.csv together, so that the memory used does not grow with the number of
+    documents; the data dictionary and the data package are written from counts.
+    """
     out = Path(out_dir)
     schema = result.schema
     _remove_stale_temporaries(out)
@@ -177,24 +269,30 @@ def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = 
     if fingerprint and _unchanged(out, fingerprint, paths):
         return paths  # the same inputs, values and settings as the outputs already there
     counter = _Sanitiser()
-    table_columns = ["document", *schema.field_names]
-    table = _columns(counter.rows(result.rows()), table_columns)
-    values = _columns(counter.rows(result.values(), note_in="reason"), VALUES_COLUMNS)
-    documents = _columns(counter.rows(result.document_rows()), DOCUMENTS_COLUMNS)
-    atomic_write(paths["table"], csv_bytes(table_columns, table, bom=bom, guarded=_text_columns(schema)))
-    values_guard = [True, True, True, False, False, False, False, False, True, False, True, True]
-    atomic_write(paths["values"], csv_bytes(VALUES_COLUMNS, values, bom=bom, guarded=values_guard))
-    atomic_write(paths["documents"], csv_bytes(DOCUMENTS_COLUMNS, documents, bom=bom))
-    dictionary = data_dictionary(result)
-    atomic_write(paths["dictionary_csv"], csv_bytes(DICTIONARY_COLUMNS, _columns(dictionary, DICTIONARY_COLUMNS), bom=bom))
-    atomic_write(paths["dictionary"], sanitise(dictionary_markdown(schema, dictionary)).encode("utf-8"))
-    descriptor = datapackage(result, bom=bom)
-    descriptor["structurize"] = {"csv_formula_guard": True, "sanitised_cells": counter.changed}
-    atomic_write(paths["datapackage"], (_no_surrogates(json.dumps(descriptor, indent=2, ensure_ascii=False)) + "\n").encode("utf-8"))
+    counts = FieldCounts(schema)
+    names = schema.field_names
+    table_columns = ["document", *names]
+    with OutputFiles() as files:
+        table = CsvStream(files.open(paths["table"]), table_columns, bom=bom, guarded=_text_columns(schema))
+        values = CsvStream(files.open(paths["values"]), VALUES_COLUMNS, bom=bom, guarded=VALUES_GUARD)
+        documents = CsvStream(files.open(paths["documents"]), DOCUMENTS_COLUMNS, bom=bom)
+        for doc in result.documents:
+            counts.add(doc)
+            table.write(_columns(counter.rows([table_row(doc, names)]), table_columns))
+            values.write(_columns(counter.rows(value_rows(doc), note_in="reason"), VALUES_COLUMNS))
+            documents.write(_columns(counter.rows([document_row(doc)]), DOCUMENTS_COLUMNS))
+        for stream in (table, values, documents):
+            stream.close()
+        dictionary = dictionary_rows(schema, counts)
+        write_csv(files.open(paths["dictionary_csv"]), DICTIONARY_COLUMNS, _columns(dictionary, DICTIONARY_COLUMNS), bom=bom)
+        files.open(paths["dictionary"]).write(sanitise(dictionary_markdown(schema, dictionary)).encode("utf-8"))
+        descriptor = datapackage(result, bom=bom)
+        descriptor["structurize"] = {"csv_formula_guard": True, "sanitised_cells": counter.changed}
+        files.open(paths["datapackage"]).write((_no_surrogates(json.dumps(descriptor, indent=2, ensure_ascii=False)) + "\n").encode("utf-8"))
     manifest = out / MANIFEST_FILE
     if fingerprint:
-        files = {name: _file_digest(path) for name, path in paths.items()}
-        atomic_write(manifest, json.dumps({"fingerprint": fingerprint, "files": files}, sort_keys=True).encode("utf-8"))
+        digests = {name: _file_digest(path) for name, path in paths.items()}
+        atomic_write(manifest, json.dumps({"fingerprint": fingerprint, "files": digests}, sort_keys=True).encode("utf-8"))
     elif manifest.exists():
         manifest.unlink()
     return paths
@@ -207,7 +305,8 @@ MANIFEST_FILE = ".structurize-outputs.json"
 def _file_digest(path: Path) -> str:
     import hashlib
 
-    return hashlib.sha256(path.read_bytes()).hexdigest()
+    with path.open("rb") as handle:
+        return hashlib.file_digest(handle, "sha256").hexdigest()
 
 
 def _unchanged(out: Path, fingerprint: str, paths: dict[str, Path]) -> bool:
@@ -321,16 +420,39 @@ DICTIONARY_COLUMNS = [
 ]
 
 
+class FieldCounts:
+    """Per field: documents, filled values and values flagged for review, counted one
+    document at a time (for the data dictionary)."""
+
+    def __init__(self, schema: TargetSchema) -> None:
+        self.readable = 0
+        self.total: Counter[str] = Counter()
+        self.filled: Counter[str] = Counter()
+        self.flagged: Counter[str] = Counter()
+
+    def add(self, doc: DocumentResult) -> None:
+        if doc.status.readable:
+            self.readable += 1
+        for item in doc.values:
+            self.total[item.field] += 1
+            if item.value is not None:
+                self.filled[item.field] += 1
+            if item.status in (ValueStatus.REVIEW, ValueStatus.INVALID):
+                self.flagged[item.field] += 1
+
+
 def data_dictionary(result: ExtractionResult) -> list[dict[str, Any]]:
     """One row per field: title, type, definition, allowed values, fill rate, review share."""
-    readable = sum(1 for doc in result.documents if doc.status.readable)
-    flagged_statuses = (ValueStatus.REVIEW, ValueStatus.INVALID)
+    counts = FieldCounts(result.schema)
+    for doc in result.documents:
+        counts.add(doc)
+    return dictionary_rows(result.schema, counts)
+
+
+def dictionary_rows(schema: TargetSchema, counts: FieldCounts) -> list[dict[str, Any]]:
     rows = []
-    for spec in result.schema.fields:
-        mine = [item for doc in result.documents for item in doc.values if item.field == spec.name]
-        total = len(mine)
-        filled = sum(1 for item in mine if item.value is not None)
-        flagged = sum(1 for item in mine if item.status in flagged_statuses)
+    for spec in schema.fields:
+        total, filled = counts.total[spec.name], counts.filled[spec.name]
         allowed = spec.enum or ()
         constraints = {k: v for k, v in spec.constraints.items() if k != "enum"}
         rows.append(
@@ -345,8 +467,8 @@ def data_dictionary(result: ExtractionResult) -> list[dict[str, Any]]:
                 "documents": total,
                 "filled": filled,
                 "fill_rate": round(filled / total, 3) if total else 0.0,
-                "flagged_for_review": flagged,
-                "read_documents": readable,
+                "flagged_for_review": counts.flagged[spec.name],
+                "read_documents": counts.readable,
             }
         )
     return rows

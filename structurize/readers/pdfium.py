@@ -39,6 +39,7 @@ from __future__ import annotations
 
 import ctypes
 import re
+import struct
 import zlib
 from dataclasses import dataclass, field
 from typing import Any
@@ -82,6 +83,8 @@ _WORD = re.compile(r"\S+")
 _HYPHEN_MARK = "\ufffe"
 
 _TEXT_OBJECT = 1  # FPDF_PAGEOBJ_TEXT
+#: The four floats of an ``FS_RECTF`` (left, top, right, bottom) in one call.
+_RECT = struct.Struct("4f").unpack_from
 
 
 class Refused(Exception):
@@ -442,31 +445,33 @@ def _words(calls: Any, textpage: Any, left: float, bottom: float, right: float, 
         spans = _split_at(spans, hyphens)
     if not spans:
         return None  # only white space: pdfplumber counts those characters
-    rect = raw.FS_RECTF()
-    rect_ref = ctypes.byref(rect)
+    first, last = raw.FS_RECTF(), raw.FS_RECTF()  # left, top, right, bottom
+    first_ref, last_ref = ctypes.byref(first), ctypes.byref(last)
     loose_box = calls.loose_box
     words = []
     chars = 0
-    seen: dict[tuple[str, int, int], tuple[float, float]] = {}
+    seen: set[tuple[str, int, int]] = set()
     for start, end in spans:
-        if not loose_box(tp, start, rect_ref):
+        if not loose_box(tp, start, first_ref):
             return None
-        x0, y_top, y_bottom = rect.left, rect.top, rect.bottom
-        first_right = rect.right
+        x0, y_top, first_right, y_bottom = _RECT(first)
         if end - start > 1:
-            if not loose_box(tp, end - 1, rect_ref):
+            if not loose_box(tp, end - 1, last_ref):
                 return None
-        x1, y_top2, y_bottom2 = rect.right, rect.top, rect.bottom
+            _, y_top2, x1, y_bottom2 = _RECT(last)
+        else:
+            y_top2, x1, y_bottom2 = y_top, first_right, y_bottom
         if x1 < x0 or first_right < x0 or abs(y_bottom2 - y_bottom) > 3:
             return None  # right to left, mirrored or broken across lines: pdfplumber orders it
-        lo, hi = min(y_bottom, y_bottom2), max(y_top, y_top2)
+        hi = y_top if y_top > y_top2 else y_top2
+        lo = y_bottom if y_bottom < y_bottom2 else y_bottom2
         if x1 < left or x0 > right or hi < bottom or lo > top:
             return None  # outside the page box: pdfplumber flags it (text_outside_page)
         word = text[start:end]
         key = (word, round(x0), round(hi))
         if key in seen:
             return None  # the same word printed twice in one place
-        seen[key] = (x0, hi)
+        seen.add(key)
         words.append({"text": word, "x0": x0 - left, "x1": x1 - left, "top": top - hi})
         chars += end - start
     return FastPage(words, chars)

@@ -338,13 +338,13 @@ class Store:
     # --- reading results back ----------------------------------------------------------
 
     def results(self, schema: TargetSchema, field_hashes: dict[str, str], extractor_version: str,
-                documents: Iterable[tuple[str, str]]) -> list[DocumentResult]:
+                documents: Iterable[tuple[str, str]]) -> Iterator[DocumentResult]:
         """Rebuild :class:`DocumentResult` objects for ``(path, sha256)`` pairs from stored rows.
 
-        Reads in chunks of documents (two queries per chunk, not per document).
+        Reads in chunks of documents (two queries per chunk, not per document) and yields
+        them; a document whose row is absent is skipped.
         """
         wanted = list(documents)
-        out = []
         for start in range(0, len(wanted), 500):
             chunk = wanted[start : start + 500]
             shas = list(dict.fromkeys(sha for _, sha in chunk))
@@ -363,14 +363,11 @@ class Store:
                     continue
                 mine = stored.get(sha256, {})
                 values = tuple(_load_value(spec, mine.get(spec.name)) for spec in schema.fields)
-                out.append(
-                    DocumentResult(
-                        source=path, sha256=sha256, status=DocStatus(doc["status"]), reason=doc["reason"], note=doc["note"],
-                        reader=doc["reader"], encoding=doc["encoding"], pages=doc["pages"], chars=doc["chars"],
-                        warnings=tuple(_json_list(doc["warnings"])), seconds=doc["seconds"], values=values,
-                    )
+                yield DocumentResult(
+                    source=path, sha256=sha256, status=DocStatus(doc["status"]), reason=doc["reason"], note=doc["note"],
+                    reader=doc["reader"], encoding=doc["encoding"], pages=doc["pages"], chars=doc["chars"],
+                    warnings=tuple(_json_list(doc["warnings"])), seconds=doc["seconds"], values=values,
                 )
-        return out
 
     def last_extraction(self, schema_name: str) -> int | None:
         """The latest run that extracted a document for this schema."""
