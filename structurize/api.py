@@ -258,7 +258,7 @@ def extract_documents(
     texts = [doc.text if doc.status.readable and doc.text.strip() else "" for doc, _ in read]
     step(None)
     started = time.perf_counter()
-    entities = list(ner.pipe(texts)) if any(texts) else [() for _ in texts]
+    entities = _entities_of(ner, texts)
     ner_share = (time.perf_counter() - started) / max(1, len(texts))
     results = []
     for (doc, seconds), found in zip(read, entities):
@@ -284,18 +284,47 @@ def extract_tasks(
     yield from run_documents(tasks, schema, options, stats=stats)
 
 
-def _finish_document(doc: Document, schema: TargetSchema, entities: tuple[Entity, ...], options: ExtractOptions,
+class _NerFailed(Exception):
+    """The NER pipeline raised on this document's text."""
+
+
+def _entities_of(ner: NerModel | NoNer, texts: list[str]) -> list[tuple[Entity, ...] | None]:
+    """NER over a batch of texts; if the batch fails, each text alone (None: that one failed)."""
+    if not any(texts):
+        return [() for _ in texts]
+    try:
+        return list(ner.pipe(texts))
+    except (ModelMissing, KeyboardInterrupt, MemoryError):
+        raise
+    except Exception:  # noqa: BLE001 - find the text at fault; the others go on
+        out: list[tuple[Entity, ...] | None] = []
+        for text in texts:
+            try:
+                out.append(ner.entities(text) if text else ())
+            except (ModelMissing, KeyboardInterrupt, MemoryError):
+                raise
+            except Exception:  # noqa: BLE001
+                out.append(None)
+        return out
+
+
+def _finish_document(doc: Document, schema: TargetSchema, entities: tuple[Entity, ...] | None, options: ExtractOptions,
                      seconds: float) -> DocumentResult:
     started = time.perf_counter()
     status, reason, note = doc.status, doc.reason, doc.note
     warnings = doc.warnings
     try:
+        if entities is None:
+            raise _NerFailed()
         with patterns.time_limit(options.limits.regex_seconds), patterns.collect_timeouts() as timed_out:
             values = process_text(doc, schema, entities, options)
         if timed_out:
             warnings += (patterns.TIMEOUT_WARNING,)
     except (ModelMissing, KeyboardInterrupt):
         raise
+    except _NerFailed:
+        status, reason, note = DocStatus.FAILED, "extract_error", "named-entity recognition failed on this document"
+        values = _unread_values(schema, reason)
     except Exception as exc:  # noqa: BLE001 - an extractor bug must fail one document only
         status, reason, note = DocStatus.FAILED, "extract_error", f"extraction failed ({type(exc).__name__})"
         values = _unread_values(schema, reason)

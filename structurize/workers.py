@@ -17,6 +17,7 @@ that the caller can write progress (and, later, its store) as it goes.
 from __future__ import annotations
 
 import contextlib
+import fnmatch
 import multiprocessing
 import os
 import signal
@@ -99,12 +100,13 @@ def _test_fault(source: str) -> None:
     """Test-only fault injection, active only when STRUCTURIZE_FAULT_INJECTION=1.
 
     ``STRUCTURIZE_FAULT=<kind>:<document>`` with kind ``hang``, ``crash`` (SIGSEGV),
-    ``exit`` or ``memory``.
+    ``exit``, ``memory`` or ``raise`` (an unexpected exception); ``<document>`` may be a
+    shell-style pattern (``*_letter.docx``).
     """
     if os.environ.get("STRUCTURIZE_FAULT_INJECTION") != "1":
         return
     kind, _, target = os.environ.get("STRUCTURIZE_FAULT", "").partition(":")
-    if target != source:
+    if not fnmatch.fnmatchcase(source, target):
         return
     if kind == "hang":
         time.sleep(3600)
@@ -115,6 +117,8 @@ def _test_fault(source: str) -> None:
     elif kind == "memory":
         hog = [bytearray(64 * 1024 * 1024) for _ in range(10_000)]
         del hog
+    elif kind == "raise":
+        raise RuntimeError("injected fault")
 
 
 def peak_rss_kb() -> int:
@@ -157,6 +161,7 @@ def _worker_main(conn: Connection, schema: TargetSchema, options: ExtractOptions
             conn.send(("bye", peak_rss_kb()))
             return
         chunk: list[Task] = message
+
         def step(source: str | None) -> None:
             conn.send(("step", source))
             if source is not None:
@@ -168,6 +173,10 @@ def _worker_main(conn: Connection, schema: TargetSchema, options: ExtractOptions
             if len(chunk) > 1:
                 os._exit(MEMORY_EXIT)  # the parent retries each document of the chunk alone
             results = [failed_result(schema, chunk[0][1], "memory_limit", "the document needs more memory than the limit")]
+        except Exception as exc:  # noqa: BLE001 - never a traceback (it may quote a document)
+            if len(chunk) > 1:
+                os._exit(RETRY_EXIT)  # the parent retries each document of the chunk alone
+            results = [failed_result(schema, chunk[0][1], "extract_error", f"extraction failed ({type(exc).__name__})")]
         conn.send(("done", results))
 
 
@@ -236,6 +245,8 @@ class _Pool:
 MAX_CHUNK = 8
 #: Exit status of a worker that ran out of memory on a chunk of several documents.
 MEMORY_EXIT = 86
+#: Exit status of a worker whose chunk of several documents raised: each is run again alone.
+RETRY_EXIT = 87
 
 
 class _TaskQueue:
