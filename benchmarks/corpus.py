@@ -8,6 +8,8 @@ documents of about 300 words: mostly .txt offer letters, with a .docx and a .pdf
 
 from __future__ import annotations
 
+import os
+import platform
 import random
 import sys
 from pathlib import Path
@@ -145,3 +147,17 @@ def _pdf(path: Path, lines: list[str]) -> None:
 def write_schema(path: Path) -> Path:
     path.write_text(SCHEMA, encoding="utf-8")
     return path
+
+
+def machine() -> str:
+    """The machine the figures come from: cores, CPU model, Python, load average."""
+    model = ""
+    try:
+        for line in Path("/proc/cpuinfo").read_text().splitlines():
+            if line.startswith("model name"):
+                model = line.split(":", 1)[1].strip()
+                break
+    except OSError:
+        pass
+    load = ", load average %.2f" % os.getloadavg()[0] if hasattr(os, "getloadavg") else ""
+    return f"{os.cpu_count()} cores (nproc), CPU {model or platform.processor() or 'unknown'}, Python {platform.python_version()}{load}"

@@ -26,7 +26,6 @@ from __future__ import annotations
 import argparse
 import json
 import os
-import platform
 import random
 import shutil
 import sqlite3
@@ -37,6 +36,10 @@ import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+from corpus import machine  # noqa: E402
+
 SCHEMA = ROOT / "schemas" / "offer_letter.yaml"
 TARGET_RATIO = 0.05
 
@@ -103,20 +106,6 @@ def generate(folder: Path, count: int) -> int:
         words += len(text.split())
         (folder / f"offer_{index:05d}.txt").write_text(text, encoding="utf-8")
     return words // max(count, 1)
-
-
-def machine() -> str:
-    model = ""
-    try:
-        for line in Path("/proc/cpuinfo").read_text().splitlines():
-            if line.startswith("model name"):
-                model = line.split(":", 1)[1].strip()
-                break
-    except OSError:
-        pass
-    load = ", load average %.2f" % os.getloadavg()[0] if hasattr(os, "getloadavg") else ""
-    return (f"{os.cpu_count()} cores (nproc), CPU {model or platform.processor() or 'unknown'}, "
-            f"Python {platform.python_version()}{load}")
 
 
 def structurize() -> list[str]:

@@ -31,7 +31,6 @@ from __future__ import annotations
 import argparse
 import json
 import os
-import platform
 import subprocess
 import sys
 import tempfile
@@ -41,20 +40,7 @@ from pathlib import Path
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
 
-from corpus import write_corpus, write_schema  # noqa: E402
-
-
-def machine() -> str:
-    model = ""
-    try:
-        for line in Path("/proc/cpuinfo").read_text().splitlines():
-            if line.startswith("model name"):
-                model = line.split(":", 1)[1].strip()
-                break
-    except OSError:
-        pass
-    load = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
-    return f"{os.cpu_count()} cores, {model or platform.processor()}, Python {platform.python_version()}, load {load:.2f}"
+from corpus import machine, write_corpus, write_schema  # noqa: E402
 
 
 def timed(function, *args, **kwargs):  # type: ignore[no-untyped-def]

@@ -6,10 +6,11 @@ the spool gives the results in path order, with the table-wide checks applied, a
 hundred at a time; the writers stream them into the output files.
 
 The spool is a private temporary SQLite database (``sqlite3.connect("")``): SQLite
-creates it in the system's temporary folder with owner-only permissions, removes its name
-at once, keeps a small page cache in memory, and the space is freed when the spool is
-closed or the process ends, a crash included.  It holds extracted personal data while the
-run lasts, on the same machine as the inputs.
+creates it in the temporary folder (``SQLITE_TMPDIR``, else ``TMPDIR``, else ``/var/tmp``
+or ``/tmp``) with owner-only permissions (0600), removes its name at once, keeps a small
+page cache in memory, and the space is freed when the spool is closed or the process ends,
+a crash included.  It holds extracted personal data while the run lasts, on the same
+machine as the inputs.
 """
 
 from __future__ import annotations
