@@ -341,9 +341,11 @@ def export_command(
         _check_writable(output)
         opened = _open_store(store, lock=False, quiet=True, create=False)
         with opened:
-            if run_id is not None and opened.run(run_id) is None:
-                raise UsageError(f"{_escape(str(store))}: no run {run_id}")
-            documents = incremental.export(opened, target, run_id)
+            notify = None if quiet else (lambda message: err.print(f"structurize: {message}", markup=False))
+            try:
+                documents = incremental.export(opened, target, run_id, notify=notify)
+            except UsageError as exc:
+                raise UsageError(f"{_escape(str(store))}: {exc}") from None
         result = api.ExtractionResult(schema=target, documents=documents, settings={"run": run_id})
         paths = _write(result, output, not plain_csv)
     except StructurizeError as exc:

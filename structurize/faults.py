@@ -2,8 +2,10 @@
 
 Active only when ``STRUCTURIZE_FAULT_INJECTION=1``.  ``STRUCTURIZE_FAULT_POINT=<name>:<n>``
 sends SIGKILL to the process the n-th time it reaches point ``name`` (1-based).  Points:
-``before_commit``, ``after_document_before_values``, ``after_values_before_status``,
-``after_document``, ``before_output_rename``, ``after_output_rename``.
+``after_result_before_begin`` (a worker's result is in, its transaction not begun),
+``after_document_before_values``, ``after_values_before_status`` (inside the transaction),
+``before_commit``, ``after_commit_before_progress``, ``before_output_rename`` and
+``after_output_rename`` (before the folder is synced).
 """
 
 from __future__ import annotations

@@ -27,7 +27,8 @@ from pathlib import Path
 
 import pytest
 
-from structurize.incremental import field_hashes
+from structurize.incremental import extraction_key, field_hashes
+from structurize.options import ExtractOptions
 from structurize.schema import load_schema
 from structurize.store import APPLICATION_ID, Store, StoreBusy, StoreError
 from structurize.store.lock import StoreLock
@@ -291,12 +292,16 @@ def INV(store_path: Path, out_dir: Path | None, expected_documents: Iterable[str
             assert duplicates == [], f"duplicate {table} rows: {duplicates[:3]}"
         documents = [row[0] for row in db.execute("SELECT sha256 FROM documents")]
         for sha in documents:
-            rows = db.execute(
-                "SELECT field, field_hash FROM field_values WHERE sha256 = ? AND schema_name = ? AND extractor_version = ?",
-                (sha, schema.name, EXTRACTOR_VERSION),
+            rows = db.execute(  # the extractors' version, then the settings (extraction_key)
+                "SELECT field, field_hash, extractor_version FROM field_values WHERE sha256 = ? AND schema_name = ?"
+                " AND extractor_version LIKE ?",
+                (sha, schema.name, f"{EXTRACTOR_VERSION}/%"),
             ).fetchall()
-            current = sorted(field for field, hash_ in rows if hashes.get(field) == hash_)
-            assert current == sorted(schema.field_names), f"document {sha[:12]} is incomplete: {current}"
+            complete = {
+                version: sorted(field for field, hash_, key in rows if key == version and hashes.get(field) == hash_)
+                for version in {key for _, _, key in rows}
+            }
+            assert sorted(schema.field_names) in complete.values(), f"document {sha[:12]} is incomplete: {complete}"
             assert db.execute("SELECT count(*) FROM paths WHERE sha256 = ?", (sha,)).fetchone()[0] >= 1, f"{sha[:12]}: no path"
             assert db.execute(
                 "SELECT count(*) FROM run_documents WHERE sha256 = ? AND action = 'extracted'", (sha,)
@@ -389,11 +394,12 @@ def test_fi1_document_transaction_is_all_or_nothing(tmp_path: Path, offer_schema
     import structurize.store as store_module
 
     hashes = field_hashes(offer_schema)
+    key = extraction_key(ExtractOptions(ner=None))
     store = Store.open(tmp_path / "s.sqlite")
     try:
-        run = store.begin_run(offer_schema, hashes, "h", str(tmp_path), "t", EXTRACTOR_VERSION)
+        run = store.begin_run(offer_schema, hashes, "h", str(tmp_path), "t", key)
         store.save_document(run, offer_schema.name, str(tmp_path), "a.txt", _result(offer_schema, "a.txt", "a" * 64), hashes,
-                            offer_schema.field_names, EXTRACTOR_VERSION)
+                            offer_schema.field_names, key)
 
         def boom(name: str) -> None:
             if name == point:
@@ -402,7 +408,7 @@ def test_fi1_document_transaction_is_all_or_nothing(tmp_path: Path, offer_schema
         monkeypatch.setattr(store_module, "fault_point", boom)
         with pytest.raises(RuntimeError):
             store.save_document(run, offer_schema.name, str(tmp_path), "b.txt", _result(offer_schema, "b.txt", "b" * 64),
-                                hashes, offer_schema.field_names, EXTRACTOR_VERSION)
+                                hashes, offer_schema.field_names, key)
         assert not store.db.in_transaction
         monkeypatch.undo()
         store.finish_run(run, {})

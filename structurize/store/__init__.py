@@ -187,6 +187,20 @@ class Store:
                 self.db.execute("ROLLBACK")
             raise
 
+    @contextmanager
+    def snapshot(self) -> Iterator[None]:
+        """A read transaction: every read inside sees the store as it was when it began,
+        whatever a run writes meanwhile (WAL readers do not block the writer)."""
+        try:
+            self.db.execute("BEGIN")
+        except sqlite3.Error as exc:
+            raise _explain(exc, self.path) from None
+        try:
+            yield
+        finally:
+            if self.db.in_transaction:
+                self.db.execute("COMMIT")
+
     # --- runs ----------------------------------------------------------------------------
 
     def begin_run(self, schema: TargetSchema, field_hashes: dict[str, str], schema_hash: str, input_root: str,
@@ -262,15 +276,15 @@ class Store:
                 out.setdefault(row["sha256"], {}).setdefault(row["field"], set()).add(row["field_hash"])  # type: ignore[attr-defined]
         return out  # type: ignore[return-value]
 
-    def reasons(self, shas: Iterable[str]) -> dict[str, str]:
-        """{sha256: reason code} of the documents already recorded."""
+    def document_states(self, shas: Iterable[str]) -> dict[str, tuple[str, str, list[str]]]:
+        """{sha256: (status, reason code, warnings)} of the documents already recorded."""
         wanted = list(dict.fromkeys(shas))
-        out: dict[str, str] = {}
+        out: dict[str, tuple[str, str, list[str]]] = {}
         for start in range(0, len(wanted), 500):
             chunk = wanted[start : start + 500]
             marks = ",".join("?" * len(chunk))
-            for row in self._rows(f"SELECT sha256, reason FROM documents WHERE sha256 IN ({marks})", tuple(chunk)):
-                out[row["sha256"]] = row["reason"]
+            for row in self._rows(f"SELECT sha256, status, reason, warnings FROM documents WHERE sha256 IN ({marks})", tuple(chunk)):
+                out[row["sha256"]] = (row["status"], row["reason"], _json_list(row["warnings"]))
         return out
 
     def save_document(self, run_id: int, schema_name: str, input_root: str, path: str, result: DocumentResult,
@@ -337,12 +351,15 @@ class Store:
 
     # --- reading results back ----------------------------------------------------------
 
-    def results(self, schema: TargetSchema, field_hashes: dict[str, str], extractor_version: str,
+    def results(self, schema: TargetSchema, field_hashes: dict[str, str], extractor_version: str | None,
                 documents: Iterable[tuple[str, str]]) -> Iterator[DocumentResult]:
         """Rebuild :class:`DocumentResult` objects for ``(path, sha256)`` pairs from stored rows.
 
-        Reads in chunks of documents (two queries per chunk, not per document) and yields
-        them; a document whose row is absent is skipped.
+        A field's value is the stored one whose field hash is current and, with an
+        ``extractor_version``, made under that key; with None, the latest one under any
+        (what an export shows: the newest values, whichever version and settings made them).  Reads in
+        chunks of documents (two queries per chunk, not per document) and yields them; a
+        document whose row is absent is skipped.
         """
         wanted = list(documents)
         for start in range(0, len(wanted), 500):
@@ -351,12 +368,13 @@ class Store:
             marks = ",".join("?" * len(shas))
             docs = {row["sha256"]: row for row in self._rows(f"SELECT * FROM documents WHERE sha256 IN ({marks})", tuple(shas))}
             stored: dict[str, dict[str, sqlite3.Row]] = {}
+            version, key = ("AND extractor_version = ?", (extractor_version,)) if extractor_version is not None else ("", ())
             for row in self._rows(
-                f"SELECT * FROM field_values WHERE schema_name = ? AND extractor_version = ? AND sha256 IN ({marks})",
-                (schema.name, extractor_version, *shas),
+                f"SELECT * FROM field_values WHERE schema_name = ? {version} AND sha256 IN ({marks}) ORDER BY run_id",
+                (schema.name, *key, *shas),
             ):
                 if row["field_hash"] == field_hashes.get(row["field"]):
-                    stored.setdefault(row["sha256"], {})[row["field"]] = row
+                    stored.setdefault(row["sha256"], {})[row["field"]] = row  # the latest run wins
             for path, sha256 in chunk:
                 doc = docs.get(sha256)
                 if doc is None:
@@ -383,14 +401,41 @@ class Store:
             "SELECT path, sha256 FROM run_documents WHERE run_id = ? AND action != 'missing' ORDER BY path", (run_id,))]
 
     def workspace_documents(self, schema_name: str) -> list[tuple[str, str]]:
-        """Every document seen under this schema: its latest path (and input folder) per content."""
-        rows = self._rows(
-            "SELECT path, sha256, input_root, last_run FROM paths WHERE schema_name = ? ORDER BY last_run, path", (schema_name,)
-        )
-        latest: dict[str, tuple[str, str]] = {}
-        for row in rows:
-            latest[row["sha256"]] = (row["path"], row["sha256"])
-        return sorted(latest.values())
+        """Everything so far: the documents of the latest finished run over each input folder
+        this schema was run on (a folder's latest run of any state when none finished), as
+        ``(path, sha256)``.  Documents gone from a folder, and earlier versions of changed
+        ones, are left out (they stay in the store as history).  With more than one input
+        folder, each path starts with its folder's name (``2026-Q1/interview_01.txt``), the
+        shortest tail of the folder's path that tells the folders apart."""
+        finished: dict[str, int] = {}
+        newest: dict[str, int] = {}
+        for row in self._rows("SELECT id, input_root, state FROM runs WHERE schema_name = ? ORDER BY id", (schema_name,)):
+            newest[row["input_root"]] = row["id"]
+            if row["state"] == "finished":
+                finished[row["input_root"]] = row["id"]
+        latest = {root: finished.get(root, run_id) for root, run_id in newest.items()}
+        labels = _folder_labels(list(latest))
+        out = []
+        for root, run_id in latest.items():
+            for path, sha256 in self.run_documents(run_id):
+                out.append((f"{labels[root]}/{path}" if labels[root] else path, sha256))
+        return sorted(out)
+
+
+def _folder_labels(roots: list[str]) -> dict[str, str]:
+    """A short label per input folder: "" for a single folder, else the shortest tail of
+    each path (``Q1``, ``2026/Q1``) that no other folder shares."""
+    if len(roots) < 2:
+        return dict.fromkeys(roots, "")
+    parts = {root: Path(root).parts for root in roots}
+    labels = {}
+    for root in roots:
+        for size in range(1, len(parts[root]) + 1):
+            tail = parts[root][-size:]
+            if all(parts[other][-size:] != tail for other in roots if other != root):
+                break
+        labels[root] = "/".join(tail)
+    return labels
 
 
 def _has_tables(db: sqlite3.Connection) -> bool:
