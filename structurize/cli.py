@@ -355,12 +355,25 @@ def export_command(
 
 
 def main() -> None:
+    """The console script: like ``app()``, but a usage error is one line on stderr (exit 2)."""
+    from typer.exceptions import Abort, TyperException
+
     try:
-        app()
-    except KeyboardInterrupt:
+        code = app(standalone_mode=False)
+    except TyperException as exc:  # typer's own copy of click's exceptions derive from it
+        if type(exc).__name__ == "NoArgsIsHelpError":
+            exc.show()  # type: ignore[attr-defined]  # no arguments at all: the help, as ever
+            sys.exit(EXIT_USAGE)
+        message = " ".join(exc.format_message().split())
+        context = getattr(exc, "ctx", None)
+        if exc.exit_code == EXIT_USAGE and context is not None:
+            message += f" (see '{context.command_path} --help')"
+        err.print(f"structurize: {message}", markup=False)
+        sys.exit(exc.exit_code)
+    except (KeyboardInterrupt, Abort):
         err.print("structurize: interrupted", markup=False)
         sys.exit(130)
-
+    sys.exit(code or 0)
 
 if __name__ == "__main__":
     main()

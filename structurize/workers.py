@@ -25,7 +25,7 @@ import sys
 import time
 from collections import deque
 from collections.abc import Callable, Iterable, Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from multiprocessing.connection import Connection, wait
 from pathlib import Path
 from typing import Any
@@ -76,12 +76,20 @@ def _main_module_hidden() -> Iterator[None]:
         main.__spec__ = saved_spec
 
 
-def failed_result(schema: TargetSchema, source: str, reason: str, note: str, seconds: float = 0.0) -> DocumentResult:
-    """The result for a document whose worker did not come back."""
+def failed_result(schema: TargetSchema, source: str, reason: str, note: str, seconds: float = 0.0,
+                  path: Path | None = None) -> DocumentResult:
+    """The result for a document whose worker did not come back (with its ``path``, the
+    row still names the file's reader and the hash of its bytes)."""
     values = tuple(
         FieldValue(spec.name, None, 0.0, ValueStatus.MISSING, reason=f"document not read ({reason})") for spec in schema.fields
     )
-    return DocumentResult(source=source, sha256="", status=DocStatus.FAILED, reason=reason, note=note, seconds=seconds, values=values)
+    reader, sha256 = "", ""
+    if path is not None:
+        from .readers import file_sha256, reader_for
+
+        reader, sha256 = reader_for(path) or "", file_sha256(path)
+    return DocumentResult(source=source, sha256=sha256, status=DocStatus.FAILED, reason=reason, note=note, reader=reader,
+                          seconds=seconds, values=values)
 
 
 def _limit_memory(megabytes: int) -> None:
@@ -100,8 +108,9 @@ def _test_fault(source: str) -> None:
     """Test-only fault injection, active only when STRUCTURIZE_FAULT_INJECTION=1.
 
     ``STRUCTURIZE_FAULT=<kind>:<document>`` with kind ``hang``, ``crash`` (SIGSEGV),
-    ``exit``, ``memory`` or ``raise`` (an unexpected exception); ``<document>`` may be a
-    shell-style pattern (``*_letter.docx``).
+    ``exit``, ``memory``, ``raise`` (an unexpected exception) or ``slow`` (sleep
+    ``STRUCTURIZE_FAULT_SECONDS`` each time the document's turn comes: once to be read, once
+    to be extracted); ``<document>`` may be a shell-style pattern (``*_letter.docx``).
     """
     if os.environ.get("STRUCTURIZE_FAULT_INJECTION") != "1":
         return
@@ -119,6 +128,8 @@ def _test_fault(source: str) -> None:
         del hog
     elif kind == "raise":
         raise RuntimeError("injected fault")
+    elif kind == "slow":
+        time.sleep(float(os.environ.get("STRUCTURIZE_FAULT_SECONDS", "1")))
 
 
 def peak_rss_kb() -> int:
@@ -172,11 +183,11 @@ def _worker_main(conn: Connection, schema: TargetSchema, options: ExtractOptions
         except MemoryError:
             if len(chunk) > 1:
                 os._exit(MEMORY_EXIT)  # the parent retries each document of the chunk alone
-            results = [failed_result(schema, chunk[0][1], "memory_limit", "the document needs more memory than the limit")]
+            results = [failed_result(schema, chunk[0][1], "memory_limit", "the document needs more memory than the limit", path=chunk[0][0])]
         except Exception as exc:  # noqa: BLE001 - never a traceback (it may quote a document)
             if len(chunk) > 1:
                 os._exit(RETRY_EXIT)  # the parent retries each document of the chunk alone
-            results = [failed_result(schema, chunk[0][1], "extract_error", f"extraction failed ({type(exc).__name__})")]
+            results = [failed_result(schema, chunk[0][1], "extract_error", f"extraction failed ({type(exc).__name__})", path=chunk[0][0])]
         conn.send(("done", results))
 
 
@@ -189,6 +200,29 @@ class _Worker:
     started: float = 0.0  #: when it started, or last said what it is working on
     ready: bool = False
     broken: bool = False
+    spent: dict[str, float] = field(default_factory=dict)  #: seconds each document of the chunk has had
+
+    def step(self, source: str | None, now: float) -> None:
+        """The worker moved on to ``source`` (None: NER over the whole chunk)."""
+        owner = self.owner()
+        if owner is not None:
+            self.spent[owner] = self.spent.get(owner, 0.0) + now - self.started
+        self.current, self.started = source, now
+
+    def owner(self) -> str | None:
+        """The document the current step counts against: the one named, or a chunk's only one."""
+        if self.current is not None:
+            return self.current
+        return self.task[0][1] if self.task is not None and len(self.task) == 1 else None
+
+    def allowed(self, limit: float) -> float:
+        """Seconds the current step may take: to start; what is left of the document's time
+        limit; or, for NER over a chunk of several, the limit itself (if that runs out, each
+        document is run again alone and gets its whole limit)."""
+        if not self.ready:
+            return START_SECONDS
+        owner = self.owner()
+        return limit - self.spent.get(owner, 0.0) if owner is not None else limit
 
 
 class WorkerError(StructurizeError):
@@ -297,12 +331,6 @@ class _TaskQueue:
         return chunk
 
 
-def _allowed(worker: _Worker, limit: float) -> float:
-    """Seconds a worker may go without news: to start, or per step (a document, or NER
-    over its chunk)."""
-    return START_SECONDS if not worker.ready else limit
-
-
 def _crash_reason(exitcode: int | None) -> tuple[str, str]:
     if exitcode == MEMORY_EXIT:
         return "memory_limit", "the document needs more memory than the limit"
@@ -343,12 +371,11 @@ def run_documents(
             for worker in pool.workers:
                 if worker.ready and worker.task is None and queue:
                     worker.task = queue.next_chunk(len(pool.workers))
-                    worker.current = None
-                    worker.started = now
+                    worker.current, worker.started, worker.spent = None, now, {}
                     worker.conn.send(worker.task)
             waiting = {w.conn: w for w in pool.workers}
             sentinels = {w.process.sentinel: w for w in pool.workers}
-            deadlines = [w.started + _allowed(w, limit) for w in pool.workers if w.task is not None or not w.ready]
+            deadlines = [w.started + w.allowed(limit) for w in pool.workers if w.task is not None or not w.ready]
             timeout = max(0.0, min(deadlines) - now) if deadlines else None
             ready = wait([*waiting, *sentinels], timeout=timeout)
             finished: list[DocumentResult] = []
@@ -366,8 +393,7 @@ def run_documents(
                     if kind == "ready":
                         worker.ready = True
                     elif kind == "step":
-                        worker.current = payload
-                        worker.started = time.monotonic()
+                        worker.step(payload, time.monotonic())
                     elif kind == "done":
                         worker.task = None
                         finished.extend(payload)
@@ -378,7 +404,7 @@ def run_documents(
             now = time.monotonic()
             for worker in list(pool.workers):
                 dead = worker.broken or not worker.process.is_alive()
-                late = worker.task is not None and now - worker.started > _allowed(worker, limit)
+                late = worker.task is not None and now - worker.started > worker.allowed(limit)
                 stuck = not worker.ready and now - worker.started > START_SECONDS
                 if not (dead or late or stuck):
                     continue
@@ -391,18 +417,19 @@ def run_documents(
                     if startup_failures >= 3:
                         raise WorkerError("worker processes cannot start (is the memory limit too low?)")
                 blamed = chunk[0] if chunk is not None and len(chunk) == 1 else None
-                if chunk is not None and late and not dead and worker.current is not None:
-                    blamed = next((task for task in chunk if task[1] == worker.current), blamed)
+                if chunk is not None and late and not dead and worker.owner() is not None:
+                    blamed = next((task for task in chunk if task[1] == worker.owner()), blamed)
                 if chunk is not None:
                     # run the others again, each alone, so that only the culprit fails
                     queue.put_back([task for task in chunk if task is not blamed])
                 if blamed is not None:
-                    _, source = blamed
+                    path, source = blamed
                     if late and not dead:
-                        reason, note = "timeout", f"reading took longer than {limit:g} s"
+                        reason, note = "timeout", f"reading and extraction took longer than {limit:g} s"
                     else:
                         reason, note = _crash_reason(exitcode)
-                    result = failed_result(schema, source, reason, note, seconds=now - worker.started)
+                    seconds = worker.spent.get(source, 0.0) + now - worker.started
+                    result = failed_result(schema, source, reason, note, seconds=seconds, path=path)
                     if on_result:
                         on_result(result)
                     yield result

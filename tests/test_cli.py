@@ -106,3 +106,32 @@ def test_cli_score_json_equals_library(tmp_path: Path) -> None:
     assert json.loads(result.output) == json.loads(json.dumps(score_path(GOLDEN, tmp_path).as_dict()))
     table = invoke("score", GOLDEN, tmp_path)
     assert "overall" in table.output and "review load" in table.output
+
+
+@pytest.mark.parametrize(
+    "args, words",
+    [
+        (["extract", "docs", "--schema", "s.yaml", "--out", "o", "--time-limit", "0"], "Invalid value for '--time-limit'"),
+        (["extract", "docs", "--out", "o"], "Missing option '--schema'"),
+        (["extract", "docs", "--schema", "s.yaml", "--out", "o", "--pdf-password", "x"], "No such option: --pdf-password"),
+        (["bogus"], "No such command 'bogus'"),
+    ],
+)
+def test_cli_usage_errors_are_one_line_with_exit_2(tmp_path: Path, args: list[str], words: str) -> None:
+    # The console script itself (main), not typer's test runner: what a user sees.
+    import subprocess
+    import sys
+
+    done = subprocess.run([sys.executable, "-m", "structurize", *args], cwd=tmp_path, capture_output=True, text=True, timeout=60)
+    assert done.returncode == 2
+    assert len(done.stderr.splitlines()) == 1, done.stderr
+    assert done.stderr.startswith("structurize: ") and words in done.stderr and "--help" in done.stderr
+    assert done.stdout == ""
+
+
+def test_cli_help_still_works() -> None:
+    import subprocess
+    import sys
+
+    done = subprocess.run([sys.executable, "-m", "structurize", "extract", "--help"], capture_output=True, text=True, timeout=60)
+    assert done.returncode == 0 and "--schema" in done.stdout

@@ -441,7 +441,7 @@ def test_fi1b_workers_sigkilled_mid_document_then_resume(batch12, tmp_path: Path
     finally:
         kill_group(process)
     assert process.returncode == 3, stderr
-    assert lines(stderr) == [f"structurize: {victim}: timeout: reading took longer than 5 s"]
+    assert lines(stderr) == [f"structurize: {victim}: timeout: reading and extraction took longer than 5 s"]
     INV(store, out, names, after_success=True)
     header, rows = read_rows(out / "documents.csv")
     status = {row[0]: row[header.index("status")] for row in rows}

@@ -110,3 +110,24 @@ def test_the_rest_of_the_chunk_is_unchanged(runs: dict[str, Any], fault: str, re
     baseline = [row for row in _read(runs["root"] / "baseline" / output) if row["document"] not in bad]
     faulted = [row for row in _read(runs["root"] / fault / output) if row["document"] not in bad]
     assert len({row["document"] for row in baseline}) == len(runs["documents"]) - COPIES and faulted == baseline
+
+
+def test_the_time_limit_counts_a_documents_whole_time(tmp_path: Path) -> None:
+    """Reading and extracting one document share one time limit: 1.2 s at each of its two
+    turns is over a limit of 2 s, though each turn alone is under it."""
+    docs = tmp_path / "docs"
+    docs.mkdir()
+    for path in sorted((DEMO_DOCS / KIND).iterdir()):
+        shutil.copy(path, docs / path.name)
+    environment = dict(os.environ, STRUCTURIZE_FAULT_INJECTION="1", STRUCTURIZE_FAULT="slow:offer_kearney.docx",
+                       STRUCTURIZE_FAULT_SECONDS="1.2")
+    command = [
+        sys.executable, "-m", "structurize", "extract", str(docs), "--schema", str(SCHEMAS / f"{KIND}.yaml"),
+        "--out", str(tmp_path / "out"), "--no-ner", "--quiet", "--workers", "1", "--time-limit", "2",
+    ]
+    done = subprocess.run(command, env=environment, capture_output=True, text=True, timeout=120)
+    assert done.returncode == 3, done.stderr
+    assert done.stderr.splitlines() == ["structurize: offer_kearney.docx: timeout: reading and extraction took longer than 2 s"]
+    documents = {row["document"]: row for row in _read(tmp_path / "out" / "documents.csv")}
+    assert documents["offer_kearney.docx"]["sha256"] and documents["offer_kearney.docx"]["reader"] == "reader.docx.v1"
+    assert all(row["status"] == "ok" for name, row in documents.items() if name != "offer_kearney.docx")
