@@ -32,6 +32,7 @@ class Limits:
     email_parts: int = 1000
     email_depth: int = 20
     email_part_bytes: int = 25 * 1024 * 1024
+    email_bytes: int = 50 * 1024 * 1024  #: a whole .eml file, checked before it is parsed
     regex_seconds: float = 0.1
 
 

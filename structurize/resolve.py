@@ -146,6 +146,8 @@ def resolve_field(spec: FieldSpec, candidates: list[Candidate], *, review_below:
     if status is ValueStatus.OK and confidence < review_below:
         status = ValueStatus.REVIEW
         reasons.append("low confidence")
+    if "ocr" in chosen.flags and value is not None:  # "read by OCR", or from a scan's own OCR layer
+        reasons.append(next((note for note in chosen.evidence if "OCR" in note), "read by OCR"))
     if status is ValueStatus.MISSING and confidence < review_below:
         status = ValueStatus.REVIEW
         reasons.append("a value may be present")

@@ -104,8 +104,9 @@ class Region:
     """A stretch of text with a role that changes how extractors treat it.
 
     ``kind`` is ``"quoted"`` (a quoted reply), ``"forwarded"`` (a forwarded message with its
-    own headers) or ``"attachment"``.  Fields describe the document itself, so values
-    inside these regions are evidence of something else.
+    own headers), ``"attachment"``, or ``"annotation"`` (a PDF comment's text, after its
+    page).  Fields describe the document itself, so values inside quoted, forwarded and
+    attached text are evidence of something else; annotation text counts like page text.
     """
 
     kind: str

@@ -10,7 +10,9 @@ D2     ``ok``, ``timeout`` or ``memory_limit`` in a worker; the batch never hang
 D3     ``failed: dtd_in_ooxml`` (billion laughs)
 D4     ``failed: dtd_in_ooxml`` (XXE); the canary file's content appears in no output
 D5     ``failed: not_a_zip`` (not a zip, truncated, corrupt)
-D6     ``needs_password: encrypted_office``
+D6     ``needs_password: encrypted_office`` for an encrypted OOXML package (an OLE2 file with
+       the streams EncryptionInfo and EncryptedPackage); ``failed: legacy_office`` for any
+       other OLE2 file (a .doc renamed .docx)
 D8     ``failed: bad_docx`` (no main document part)
 D9     ``failed: xml_limits`` (nesting deeper than libxml2 allows)
 D10    ``failed: zip_limits`` (too many members)
@@ -154,7 +156,8 @@ def straddling_doctype() -> bytes:
         pytest.param(lambda seed: b"not a zip at all", RULES, "not_a_zip", "", id="D5-not-a-zip"),
         pytest.param(lambda seed: seed[:1000], RULES, "not_a_zip", "", id="D5-truncated-1000-bytes"),
         pytest.param(lambda seed: seed[: len(seed) // 2], RULES, "not_a_zip", "", id="D5-truncated-half"),
-        pytest.param(lambda seed: b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" + bytes(504), RULES, "encrypted_office", "", id="D6-ole2-encrypted"),
+        pytest.param(lambda seed: b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" + bytes(504), RULES, "legacy_office", "save it as .docx", id="D6-ole2-magic-only"),
+        pytest.param(lambda seed: compound_file(["EncryptionInfo", "EncryptedPackage"]), RULES, "encrypted_office", "password", id="D6-ole2-encrypted-ooxml"),
         pytest.param(lambda seed: rebuild(seed, {"word/document.xml": body(para(b"&b;"), BILLION_LAUGHS)}), RULES, "dtd_in_ooxml", "DTD", id="D3-billion-laughs"),
         pytest.param(
             lambda seed: rebuild(seed, {"word/styles.xml": b'<?xml version="1.0"?><!DOCTYPE x [<!ENTITY e "e">]><w:styles ' + W + b"/>"}),
@@ -257,3 +260,72 @@ def test_d2_million_paragraphs_never_hang_the_batch(tmp_path, seed):
     assert rows["small.docx"]["status"] == "ok"
     assert "Traceback" not in done.stderr
     assert elapsed < 90  # a generous bound: the 4 s limit per document plus worker start-up
+
+
+# --- D6: which OLE2 (compound) file is an encrypted .docx, and which is a legacy .doc ---------------------------------
+
+FREE, END, FAT_SECTOR, NO_STREAM = 0xFFFFFFFF, 0xFFFFFFFE, 0xFFFFFFFD, 0xFFFFFFFF
+
+
+def compound_file(streams: list[str], *, sector: int = 512, extra: bytes = b"") -> bytes:
+    """A minimal compound file (MS-CFB): header, one FAT sector, one directory sector with a
+    root entry and one empty stream entry per name, then ``extra`` as one more sector."""
+    entries = [("Root Entry", 5, 1 if streams else NO_STREAM, NO_STREAM)]
+    for index, name in enumerate(streams):
+        following = index + 2 if index + 1 < len(streams) else NO_STREAM
+        entries.append((name, 2, NO_STREAM, following))
+    per_sector = sector // 128
+    assert len(entries) <= per_sector
+    directory = b""
+    for name, kind, child, right in entries:
+        encoded = name.encode("utf-16-le") + b"\x00\x00"
+        directory += (
+            encoded.ljust(64, b"\x00") + struct.pack("<HBB", len(encoded), kind, 1)
+            + struct.pack("<III", NO_STREAM, right, child) + bytes(16) + bytes(4) + bytes(16)
+            + struct.pack("<IQ", END, 0)
+        )
+    directory = directory.ljust(sector, b"\x00")
+    fat = struct.pack("<II", FAT_SECTOR, END) + (struct.pack("<I", FREE) * (sector // 4 - 2))
+    shift = sector.bit_length() - 1
+    header = (
+        b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" + bytes(16) + struct.pack("<HHHHH", 0x3E, 3 if sector == 512 else 4, 0xFFFE, shift, 6)
+        + bytes(6) + struct.pack("<IIIIIIIII", 0, 1, 1, 0, 4096, END, 0, END, 0)
+        + struct.pack("<I", 0) + struct.pack("<I", FREE) * 108
+    )
+    assert len(header) == 512
+    return header.ljust(sector, b"\x00") + fat + directory + (extra.ljust(sector, b"\x00") if extra else b"")
+
+
+def _entry(name: str) -> bytes:
+    encoded = name.encode("utf-16-le") + b"\x00\x00"
+    return encoded.ljust(64, b"\x00") + struct.pack("<HB", len(encoded), 2)
+
+
+@pytest.mark.parametrize(
+    "data, status, reason, note",
+    [
+        pytest.param(compound_file(["EncryptionInfo", "EncryptedPackage"]), DocStatus.NEEDS_PASSWORD, "encrypted_office", "password", id="encrypted-ooxml-512-byte-sectors"),
+        pytest.param(compound_file(["\x06DataSpaces", "EncryptionInfo", "EncryptedPackage"], sector=4096), DocStatus.NEEDS_PASSWORD, "encrypted_office", "password", id="encrypted-ooxml-4096-byte-sectors"),
+        pytest.param(compound_file(["WordDocument", "1Table", "\x05SummaryInformation"]), DocStatus.FAILED, "legacy_office", "save it as .docx", id="legacy-doc"),
+        pytest.param(compound_file(["Workbook"]), DocStatus.FAILED, "legacy_office", "save it as .docx", id="legacy-xls"),
+        pytest.param(compound_file(["EncryptionInfo"]), DocStatus.FAILED, "legacy_office", "save it as .docx", id="only-one-of-the-two-streams"),
+        pytest.param(
+            compound_file(["WordDocument"], extra=b"\x00" * 6 + _entry("EncryptionInfo") + b"\x00" * 7 + _entry("EncryptedPackage")),
+            DocStatus.FAILED, "legacy_office", "save it as .docx", id="stream-names-in-content-are-not-entries",
+        ),
+        pytest.param(compound_file([]), DocStatus.FAILED, "legacy_office", "save it as .docx", id="empty-compound-file"),
+    ],
+)
+def test_d6_ole2_files_are_told_apart(tmp_path, python_docx_must_not_run, data, status, reason, note):
+    doc = read(tmp_path, data, name="renamed.docx")
+    assert (doc.status, doc.reason) == (status, reason)
+    assert note in doc.note and doc.text == ""
+
+
+def test_d6_compound_file_builder_is_sound():
+    # the directory entries sit where MS-CFB puts them: sector 1 (after the header and the FAT)
+    for sector in (512, 4096):
+        data = compound_file(["EncryptionInfo", "EncryptedPackage"], sector=sector)
+        directory = 2 * sector  # after the header (padded to a sector) and the FAT sector
+        assert data[directory : directory + 20] == "Root Entry".encode("utf-16-le")
+        assert data[directory + 128 : directory + 128 + 28] == "EncryptionInfo".encode("utf-16-le")

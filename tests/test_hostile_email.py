@@ -7,8 +7,11 @@ E1     ``unknown_charset`` warning, fallback decoding, encoding counted as guess
 E2     U+FFFD in the header text + ``header_decode`` warning
 E3     attachment names are never used as paths: nothing is written anywhere
 E4     ``attachment_skipped`` warning for a part over ``limits.email_part_bytes``;
-       the body is still read
+       the body is still read; when the dropped part is the message's text (no MIME
+       parts, or an inline text part): ``partial: mime_limits``
 E5     ``partial: mime_limits`` past ``limits.email_parts`` / ``limits.email_depth``
+E10    ``partial: bad_mime_structure`` when the stdlib cannot find the body (``get_body`` raises)
+E11    ``failed: too_large`` past ``limits.email_bytes``, before parsing
 =====  ==========================================================================
 """
 
@@ -269,3 +272,101 @@ def test_malformed_headers_are_warnings_not_failures(tmp_path, header, warning):
 def test_e1_nul_in_a_charset_name_falls_back(tmp_path):
     doc = read(write(tmp_path, HEAD + b"Content-Type: text/plain; charset=\x00utf-8\r\n\r\nEmployee: Ana Ruiz\r\n"))
     assert doc.status is DocStatus.OK and "Employee: Ana Ruiz" in doc.text
+
+
+# --- E4 (text lost) and E10: a part that held the message's text, and a broken MIME tree, are partial -----------------
+
+
+def _get_body_raises(monkeypatch):
+    from email.message import EmailMessage
+
+    def broken(self, preferencelist=("related", "html", "plain")):
+        raise AttributeError("'str' object has no attribute 'get_content_maintype'")  # what fuzzed trees raise
+
+    monkeypatch.setattr(EmailMessage, "get_body", broken)
+
+
+def _nothing(monkeypatch):
+    pass
+
+
+BIG = b"Employee: Ana Ruiz\r\n" + b"x" * 2000 + b"\r\n"
+SMALL_PARTS = Limits(email_part_bytes=1000)
+
+
+@pytest.mark.parametrize(
+    "data, limits, patch, status, reason, warnings, absent",
+    [
+        pytest.param(HEAD + b"\r\n" + BIG, SMALL_PARTS, _nothing, DocStatus.PARTIAL, "mime_limits", {"mime_limits"}, {"attachment_skipped"}, id="E4-no-mime-parts-body-over-the-part-limit"),
+        pytest.param(multipart([text_part(BIG)]), SMALL_PARTS, _nothing, DocStatus.PARTIAL, "mime_limits", {"mime_limits"}, {"attachment_skipped"}, id="E4-inline-text-part-over-the-limit"),
+        pytest.param(
+            multipart([b"Content-Type: text/html; charset=utf-8\r\n\r\n<p>" + BIG + b"</p>\r\n"]), SMALL_PARTS, _nothing,
+            DocStatus.PARTIAL, "mime_limits", {"mime_limits"}, {"attachment_skipped"}, id="E4-inline-html-part-over-the-limit",
+        ),
+        pytest.param(
+            multipart([text_part(b"Employee: Ana Ruiz"), b'Content-Type: text/plain\r\nContent-Disposition: attachment; filename="log.txt"\r\n\r\n' + BIG]),
+            SMALL_PARTS, _nothing, DocStatus.OK, "", {"attachment_skipped"}, {"mime_limits"}, id="E4-text-attachment-over-the-limit-is-an-attachment",
+        ),
+        pytest.param(
+            multipart([text_part(b"Employee: Ana Ruiz"), b"Content-Type: application/pdf\r\n\r\n" + BIG]), SMALL_PARTS, _nothing,
+            DocStatus.OK, "", {"attachment_skipped"}, {"mime_limits"}, id="E4-binary-part-over-the-limit",
+        ),
+        pytest.param(
+            multipart([text_part(b"Employee: Ana Ruiz")])[:-2] + b"\r\n" + BIG, SMALL_PARTS, _nothing, DocStatus.OK, "", {"attachment_skipped"}, {"mime_limits"},
+            id="E4-epilogue-over-the-limit-is-not-text",
+        ),
+        pytest.param(HEAD + b"\r\n" + BIG, Limits(), _nothing, DocStatus.OK, "", set(), {"mime_limits", "attachment_skipped"}, id="E4-body-within-the-limit"),
+        pytest.param(
+            multipart([text_part(b"Employee: Ana Ruiz"), b"Content-Type: text/html\r\n\r\n<p>" + BIG + b"</p>\r\n"]).replace(b"multipart/mixed", b"multipart/alternative"),
+            SMALL_PARTS, _nothing, DocStatus.OK, "", {"attachment_skipped"}, {"mime_limits"}, id="E4-unread-html-alternative-over-the-limit",
+        ),
+        pytest.param(multipart([text_part(b"Employee: Ana Ruiz")]), Limits(), _get_body_raises, DocStatus.PARTIAL, "bad_mime_structure", {"bad_mime_structure"}, set(), id="E10-get-body-raises"),
+    ],
+)
+def test_lost_message_text_is_partial(tmp_path, monkeypatch, data, limits, patch, status, reason, warnings, absent):
+    patch(monkeypatch)
+    doc = read(write(tmp_path, data), ExtractOptions(ner=None, limits=limits))
+    assert (doc.status, doc.reason) == (status, reason)
+    assert warnings <= set(doc.warnings) and not absent & set(doc.warnings)
+    assert "From: Ana Ruiz <ana@example.org>" in doc.text  # the headers are read in every case
+    if status is DocStatus.PARTIAL:
+        assert doc.note and "Ana" not in doc.note and "xxx" not in doc.note
+    if reason == "mime_limits":
+        assert "1000 bytes" in doc.note and "Employee" not in doc.text
+    if status is DocStatus.OK and "attachment_skipped" in warnings:
+        assert "Employee: Ana Ruiz" in doc.text
+
+
+# --- E11: a whole message over limits.email_bytes is refused before it is parsed ----------------------------------------
+
+
+@pytest.mark.parametrize(
+    "size, limit, status, reason",
+    [
+        pytest.param(5000, 4000, DocStatus.FAILED, "too_large", id="E11-over-the-limit"),
+        pytest.param(5000, 5000, DocStatus.OK, "", id="E11-at-the-limit"),
+        pytest.param(5000, Limits().email_bytes, DocStatus.OK, "", id="E11-default-limit"),
+    ],
+)
+def test_e11_message_size_limit(tmp_path, monkeypatch, size, limit, status, reason):
+    from structurize.readers import mail
+
+    body = b"Employee: Ana Ruiz\r\n"
+    data = HEAD + b"\r\n" + body + b"y" * (size - len(HEAD) - 2 - len(body))
+    assert len(data) == size
+    parsed = []
+    real = mail.bounded_message
+    monkeypatch.setattr(mail, "bounded_message", lambda *a, **k: parsed.append(1) or real(*a, **k))
+    doc = read(write(tmp_path, data), ExtractOptions(ner=None, limits=Limits(email_bytes=limit)))
+    assert (doc.status, doc.reason) == (status, reason)
+    if reason:
+        assert parsed == []  # refused before a byte was parsed
+        assert str(limit) in doc.note and doc.text == ""
+
+
+def test_e11_a_message_that_grows_while_read_is_still_capped(tmp_path):
+    path = write(tmp_path, HEAD + b"\r\n" + b"Employee: Ana Ruiz\r\n" * 100)
+    limits = Limits(email_bytes=500)  # as if the file had grown after its size was checked
+    with pytest.raises(Exception) as caught:
+        bounded_message(path, limits)
+    assert getattr(caught.value, "code", None) == "too_large"

@@ -14,9 +14,14 @@ P5        ``needs_password: wrong_password`` ("incorrect password"); the passwor
 P6        ``failed: stream_too_large`` (capped inflate) or ``failed: memory_limit``
 P7        ``failed: too_many_chars`` (``limits.chars``, counted while the page is interpreted)
 P8        ``ok`` + ``circular_xobject``; a page-tree loop is ``failed: pdf_structure``
-P9        ``failed: pdf_structure`` (RecursionError); one page of two: ``partial: page_unreadable``
+P9        ``failed: pdf_structure`` (RecursionError); one page of two: ``partial: page_unreadable``;
+          deep metadata: ``partial: metadata_unreadable``
 P10       ``failed: too_many_pages`` from the page tree, before any page is processed
-P11       ``no_text_layer``; with --ocr and Tesseract: ``ok`` + ``ocr``
+P11       ``no_text_layer``; with --ocr and Tesseract: ``ok`` + ``ocr``, values noted "read by OCR"
+F1-F4     a failing feature: ``partial`` with the warning ``annots_unreadable``,
+          ``tables_unreadable``, ``metadata_unreadable`` or ``image_only_pages`` as its reason
+A1-A9     annotation text (``/Contents`` of markup annotations) after the page's text, in a
+          region of kind ``annotation``
 ========  ======================================================================
 """
 
@@ -30,6 +35,7 @@ import shutil
 import struct
 import subprocess
 import sys
+import time
 import zlib
 from pathlib import Path
 
@@ -508,10 +514,10 @@ def test_p9_one_deep_page_of_two_is_partial(tmp_path):
     assert "page_unreadable" in doc.warnings and "Ana Ruiz" in doc.text
 
 
-def test_p9_deep_metadata_is_a_warning_and_silent(tmp_path, capfd):
+def test_p9_deep_metadata_is_partial_and_silent(tmp_path, capfd):
     data = one_page(text_ops("Employee: Ana Ruiz"), more=[b"<< /Title " + DEEP + b" >>"], trailer=b"/Info 6 0 R ")
     doc = read(write(tmp_path, "deep-info.pdf", data))
-    assert doc.status is DocStatus.OK and "metadata_unreadable" in doc.warnings
+    assert (doc.status, doc.reason) == (DocStatus.PARTIAL, "metadata_unreadable") and "metadata_unreadable" in doc.warnings
     assert capfd.readouterr().err == ""  # pdfplumber logs the error text; it must not reach stderr
 
 
@@ -638,3 +644,319 @@ def test_p11_ocr_values_are_extracted(tmp_path):
     result = extract_document(path, schema, options=ExtractOptions(ner=None, ocr=True))
     assert result.status is DocStatus.OK and "ocr" in result.warnings
     assert result.value("employee").value == "Hannah Whitfield"
+
+
+# --- requirement 4: a failing feature makes the document partial, never ok, never failed -----------------------------
+#
+# RELIABILITY.md §0.4: "A feature-level failure never becomes a document failure ... The document
+# becomes partial with a named warning."  The reason is the warning's name, the note says what
+# was lost and never quotes the document.
+
+
+def annotated_pdf(annots: list[bytes], text: str = f"Offer letter for {SECRET_WORD}") -> bytes:
+    """One page showing ``text`` whose ``/Annots`` are ``annots`` (objects 6, 7, ...), then ``more``."""
+    refs = b" ".join(b"%d 0 R" % (6 + index) for index in range(len(annots)))
+    page = (
+        b"<< /Type /Page /Parent 2 0 R /MediaBox [0 0 595 842] /Contents 5 0 R"
+        b" /Resources << /Font << /F1 3 0 R >> >> /Annots [" + refs + b"] >>"
+    )
+    return build_pdf(
+        [b"<< /Type /Catalog /Pages 2 0 R >>", b"<< /Type /Pages /Kids [4 0 R] /Count 1 >>", FONT, page, stream(text_ops(text)), *annots]
+    )
+
+
+def annot(subtype: bytes, contents: bytes, extra: bytes = b"") -> bytes:
+    return b"<< /Type /Annot /Subtype /" + subtype + b" /Rect [72 600 90 618] /Contents " + contents + extra + b" >>"
+
+
+def cyclic_annots() -> bytes:
+    # real #14 / #23's class: resolving the annotation follows /A -> /Next -> itself until
+    # pdfminer's recursion fails (MalformedPDFException: maximum recursion depth exceeded)
+    return annotated_pdf(
+        [
+            b"<< /Type /Annot /Subtype /Link /Rect [72 600 90 618] /A 7 0 R >>",
+            b"<< /Type /Action /S /URI /URI (https://example.org/) /Next 7 0 R >>",
+        ]
+    )
+
+
+def self_referencing_annot() -> bytes:
+    # "6 0 obj 6 0 R endobj": pdfminer's resolve1 follows it forever
+    return annotated_pdf([b"6 0 R"])
+
+
+def multiplying_annots(levels: int = 40) -> bytes:
+    # no cycle, but each action names the next one twice: pdfplumber's resolve_all walks 2**40
+    # objects for this 2 KB file (measured: 24 levels already take minutes)
+    chain = [b"<< /S /URI /URI (https://example.org/) /Next [%d 0 R %d 0 R] >>" % (8 + i, 8 + i) for i in range(levels)]
+    return annotated_pdf([annot(b"Text", b"(note)", b" /A 7 0 R"), *chain, b"<< /S /URI /URI (https://example.org/) >>"])
+
+
+def text_and_image_pages() -> bytes:
+    image = zlib.compress(b"\x80" * 16)
+    return build_pdf(
+        [
+            b"<< /Type /Catalog /Pages 2 0 R >>",
+            b"<< /Type /Pages /Kids [4 0 R 6 0 R] /Count 2 >>",
+            FONT,
+            page_obj(5),
+            stream(text_ops(f"Employee: {SECRET_WORD}")),
+            b"<< /Type /Page /Parent 2 0 R /MediaBox [0 0 595 842] /Contents 7 0 R /Resources << /XObject << /Im1 8 0 R >> >> >>",
+            stream(b"q 400 0 0 400 100 300 cm /Im1 Do Q"),
+            b"<< /Type /XObject /Subtype /Image /Width 4 /Height 4 /ColorSpace /DeviceGray /BitsPerComponent 8"
+            b" /Filter /FlateDecode /Length %d >>\nstream\n" % len(image) + image + b"\nendstream",
+        ]
+    )
+
+
+def _tables_raise(monkeypatch):
+    from pdfplumber.page import Page
+
+    def broken(self, *args, **kwargs):
+        raise ValueError("table finder broke")
+
+    monkeypatch.setattr(Page, "find_tables", broken)
+    monkeypatch.setattr(pdf_reader, "FAST_PATH", False)  # the fast path never looks for tables
+
+
+def _no_patch(monkeypatch):
+    pass
+
+
+@pytest.mark.parametrize(
+    "data, patch, reason, note",
+    [
+        pytest.param(cyclic_annots, _no_patch, "annots_unreadable", "annotations", id="F1-cyclic-annotations"),
+        pytest.param(self_referencing_annot, _no_patch, "annots_unreadable", "annotations", id="F1-annotation-is-a-reference-to-itself"),
+        pytest.param(multiplying_annots, _no_patch, "annots_unreadable", "annotations", id="F1-shared-objects-multiply-the-walk"),
+        pytest.param(lambda: one_page(text_ops(f"Employee: {SECRET_WORD}")), _tables_raise, "tables_unreadable", "table detection failed", id="F2-table-detection-raises"),
+        pytest.param(
+            lambda: one_page(text_ops(f"Employee: {SECRET_WORD}"), more=[b"<< /Title " + DEEP + b" >>"], trailer=b"/Info 6 0 R "),
+            _no_patch, "metadata_unreadable", "metadata", id="F3-deep-metadata",
+        ),
+        pytest.param(text_and_image_pages, _no_patch, "image_only_pages", "1 of 2 pages are images only", id="F4-one-image-only-page-of-two"),
+    ],
+)
+def test_feature_failure_is_partial_with_a_named_warning(tmp_path, monkeypatch, capfd, data, patch, reason, note):
+    patch(monkeypatch)
+    started = time.monotonic()
+    doc = read(write(tmp_path, "feature.pdf", data()))
+    assert time.monotonic() - started < 30  # bounded: a hang check, not a speed test
+    assert (doc.status, doc.reason) == (DocStatus.PARTIAL, reason)
+    assert reason in doc.warnings
+    assert SECRET_WORD in doc.text  # the text was read
+    assert note in doc.note
+    assert_quiet(doc)
+    assert capfd.readouterr().err == ""
+
+
+@pytest.mark.parametrize(
+    "first, second, reason",
+    [
+        pytest.param("image_only_pages", "annots_unreadable", "image_only_pages", id="lost-page-text-wins-over-lost-annotations"),
+        pytest.param("annots_unreadable", "tables_unreadable", "annots_unreadable", id="lost-annotations-win-over-table-structure"),
+    ],
+)
+def test_feature_failures_together_keep_every_warning(tmp_path, monkeypatch, first, second, reason):
+    image = zlib.compress(b"\x80" * 16)
+    objects = [
+        b"<< /Type /Catalog /Pages 2 0 R >>",
+        b"<< /Type /Pages /Kids [4 0 R 9 0 R] /Count 2 >>",
+        FONT,
+        b"<< /Type /Page /Parent 2 0 R /MediaBox [0 0 595 842] /Contents 5 0 R /Resources << /Font << /F1 3 0 R >> >> /Annots [6 0 R] >>",
+        stream(text_ops("Employee: Ana Ruiz")),
+        b"<< /Type /Annot /Subtype /Link /Rect [72 600 90 618] /A 7 0 R >>",
+        b"<< /Type /Action /S /URI /URI (https://example.org/) /Next 7 0 R >>",
+        b"<< /Type /XObject /Subtype /Image /Width 4 /Height 4 /ColorSpace /DeviceGray /BitsPerComponent 8"
+        b" /Filter /FlateDecode /Length %d >>\nstream\n" % len(image) + image + b"\nendstream",
+    ]
+    if "image_only_pages" in (first, second):
+        objects += [
+            b"<< /Type /Page /Parent 2 0 R /MediaBox [0 0 595 842] /Contents 10 0 R /Resources << /XObject << /Im1 8 0 R >> >> >>",
+            stream(b"q 400 0 0 400 100 300 cm /Im1 Do Q"),
+        ]
+    else:
+        objects += [page_obj(10), stream(text_ops("Page two"))]
+    if "tables_unreadable" in (first, second):
+        _tables_raise(monkeypatch)
+    doc = read(write(tmp_path, "two-features.pdf", build_pdf(objects)))
+    assert (doc.status, doc.reason) == (DocStatus.PARTIAL, reason)
+    assert {first, second} <= set(doc.warnings)
+
+
+def test_ocr_that_reads_nothing_leaves_image_only_pages_partial(tmp_path, monkeypatch):
+    # image-only pages that OCR did not read (here: OCR failed) are lost text: partial
+    from structurize.readers import ocr as ocr_module
+
+    class Failing:
+        def __init__(self, *args, **kwargs):
+            pass
+
+        def read_page(self, index):
+            raise ocr_module.OcrError("no")
+
+        def close(self):
+            pass
+
+    monkeypatch.setattr(ocr_module, "tesseract_path", lambda: "/usr/bin/tesseract")
+    monkeypatch.setattr(ocr_module, "PageReader", Failing)
+    doc = read(write(tmp_path, "mixed.pdf", text_and_image_pages()), ExtractOptions(ner=None, ocr=True))
+    assert (doc.status, doc.reason) == (DocStatus.PARTIAL, "image_only_pages")
+    assert {"ocr_failed", "image_only_pages"} <= set(doc.warnings)
+
+
+def test_a_document_without_failing_features_stays_ok(tmp_path):
+    doc = read(write(tmp_path, "plain.pdf", pages_pdf([text_ops("Employee: Ana Ruiz"), text_ops("Page two")])))
+    assert (doc.status, doc.reason, doc.note) == (DocStatus.OK, "", "")
+
+
+# --- annotations: their text is read, marked as a region, and decoded as PDF text strings ------------------------------
+
+
+@pytest.mark.parametrize(
+    "annots, expected",
+    [
+        pytest.param([annot(b"Text", b"(Employee: Ana Ruiz)")], ["Employee: Ana Ruiz"], id="A1-sticky-note"),
+        pytest.param([annot(b"FreeText", b"<FEFF65E5672C8A9E>")], ["日本語"], id="A2-utf16be-with-bom-real-27"),
+        pytest.param([annot(b"Highlight", b"(Jos\\351 N\\372\\361ez)")], ["José Núñez"], id="A3-pdfdocencoding-odd-length"),
+        pytest.param([annot(b"Text", b"<EFBBBF4AC3A973C3A9>")], ["Jésé"], id="A4-utf8-with-bom"),
+        pytest.param([annot(b"Text", b"(First line\\rsecond line)")], ["First line", "second line"], id="A5-two-lines"),
+        pytest.param([annot(b"Text", b"(one)"), annot(b"Square", b"(two)")], ["one", "two"], id="A6-in-order"),
+        pytest.param([annot(b"Link", b"(link text)"), annot(b"Popup", b"(popup copy)"), annot(b"Widget", b"(field)")], [], id="A7-links-popups-widgets-skipped"),
+        pytest.param([annot(b"Text", b"(   )")], [], id="A8-blank-contents"),
+        pytest.param([b"<< /Type /Annot /Subtype /Text /Rect [72 600 90 618] >>"], [], id="A9-no-contents"),
+    ],
+)
+def test_annotation_text_follows_the_page_text(tmp_path, monkeypatch, annots, expected):
+    path = write(tmp_path, "annotated.pdf", annotated_pdf(annots, "Offer letter"))
+    doc = read(path)
+    assert (doc.status, doc.reason) == (DocStatus.OK, "")
+    lines = [doc.text[s.start : s.end] for s in doc.lines]
+    assert lines == ["Offer letter", *expected]
+    marked = [doc.text[r.span.start : r.span.end] for r in doc.regions if r.kind == pdf_reader.ANNOTATION_REGION]
+    assert "".join(marked).splitlines() == expected  # every annotation line is marked, nothing else
+    assert doc.region_of(doc.lines[0]) is None
+    # both paths agree: the fast path leaves pages with annotations to pdfplumber
+    monkeypatch.setattr(pdf_reader, "FAST_PATH", False)
+    slow = read(path)
+    assert (slow.text, slow.regions, slow.warnings, slow.status) == (doc.text, doc.regions, doc.warnings, doc.status)
+
+
+@pytest.mark.parametrize("fast", [True, False], ids=["fast-path-on", "pdfplumber-only"])
+@pytest.mark.parametrize("data", [cyclic_annots, self_referencing_annot, multiplying_annots], ids=["cycle", "self-reference", "multiplying"])
+def test_unreadable_annotations_give_the_same_document_on_both_paths(tmp_path, monkeypatch, fast, data):
+    monkeypatch.setattr(pdf_reader, "FAST_PATH", fast)
+    doc = read(write(tmp_path, "cyclic.pdf", data()))
+    assert (doc.status, doc.reason, doc.warnings) == (DocStatus.PARTIAL, "annots_unreadable", ("annots_unreadable",))
+    assert doc.text == f"Offer letter for {SECRET_WORD}\n"
+
+
+def test_the_fast_path_refuses_a_page_with_annotations(tmp_path):
+    from structurize.readers import pdfium
+
+    data = annotated_pdf([annot(b"Text", b"(note)")], "Offer letter")
+    found = pdfium.scan(data, stream_cap=pdf_reader.STREAM_BYTES, content_budget=Limits().chars)
+    document = pdfium.FastDocument.open(data, found, Limits().pdf_pages)
+    try:
+        assert document.read_page(0) is None
+    finally:
+        document.close()
+    plain = one_page(text_ops("Offer letter"))
+    document = pdfium.FastDocument.open(plain, pdfium.scan(plain, stream_cap=pdf_reader.STREAM_BYTES, content_budget=Limits().chars), Limits().pdf_pages)
+    try:
+        assert document.read_page(0) is not None  # the same page without annotations stays fast
+    finally:
+        document.close()
+
+
+def test_the_annotation_budget_is_spent_once_per_document(tmp_path, monkeypatch):
+    # a hostile page spends the document's budget; later pages do not get a fresh one
+    monkeypatch.setattr(pdf_reader, "ANNOT_OBJECTS", 2000)
+    note = annot(b"Text", b"(ordinary note)")
+    chain = b"<< /S /URI /URI (x) /Next [%d 0 R %d 0 R] >>"
+    objects = [b"<< /Type /Catalog /Pages 2 0 R >>", b"", FONT]
+    kids = []
+    for page in range(3):
+        first = len(objects) + 1
+        annots = [note] if page else [annot(b"Text", b"(n)", b" /A %d 0 R" % (first + 3))] + [chain % (first + 4 + i, first + 4 + i) for i in range(30)] + [b"<< /S /URI /URI (x) >>"]
+        refs = b" ".join(b"%d 0 R" % (first + 2 + i) for i in range(len(annots)))
+        objects += [
+            b"<< /Type /Page /Parent 2 0 R /MediaBox [0 0 595 842] /Contents %d 0 R /Resources << /Font << /F1 3 0 R >> >> /Annots [%s] >>" % (first + 1, refs),
+            stream(text_ops(f"Page {page + 1}")),
+            *annots,
+        ]
+        kids.append(b"%d 0 R" % first)
+    objects[1] = b"<< /Type /Pages /Kids [%s] /Count 3 >>" % b" ".join(kids)
+    doc = read(write(tmp_path, "three.pdf", build_pdf(objects)))
+    assert (doc.status, doc.reason) == (DocStatus.PARTIAL, "annots_unreadable")
+    assert "3 of 3 pages" in doc.note and "ordinary note" not in doc.text
+    monkeypatch.setattr(pdf_reader, "ANNOT_OBJECTS", 1_000_000)
+    assert read(write(tmp_path, "ordinary.pdf", annotated_pdf([note] * 3))).status is DocStatus.OK  # ordinary notes cost little
+
+
+def test_annotation_text_counts_against_the_character_limit(tmp_path):
+    doc = read(write(tmp_path, "long-note.pdf", annotated_pdf([annot(b"Text", b"(" + b"x" * 200 + b")")], "Offer")), ExtractOptions(ner=None, limits=Limits(chars=100)))
+    assert (doc.status, doc.reason) == (DocStatus.FAILED, "too_many_chars")
+
+
+def test_values_inside_annotations_are_extracted_like_page_text(tmp_path):
+    # chosen behaviour: a reviewer's comment is part of the document; its values are not
+    # excluded (unlike quoted replies), and its span shows where the value came from
+    path = write(tmp_path, "commented.pdf", annotated_pdf([annot(b"Text", b"(Employee: Ana Ruiz)")], "Offer letter"))
+    schema = make_schema({"name": "employee", "type": "string", "extract": {"as": "person", "cues": ["employee"]}})
+    result = extract_document(path, schema, options=RULES)
+    value = result.value("employee")
+    assert value.value == "Ana Ruiz" and value.status is ValueStatus.OK
+
+
+# --- OCR: values say where they came from --------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "warnings, evidence, factor",
+    [
+        pytest.param(("ocr",), "read by OCR", 0.8, id="ocr-this-run"),
+        pytest.param(("ocr_text_layer",), "read from the scan's OCR text layer", 0.8, id="scan-with-its-own-ocr-layer"),
+        pytest.param((), None, 1.0, id="no-ocr"),
+    ],
+)
+def test_values_read_by_ocr_carry_a_note(warnings, evidence, factor):
+    from structurize.api import process_text
+    from structurize.extract.extractors import OCR_EVIDENCE, OCR_LAYER_EVIDENCE
+    from structurize.readers.builder import TextBuilder
+
+    builder = TextBuilder()
+    builder.add_line("Employee: Hannah Whitfield")
+    schema = make_schema({"name": "employee", "type": "string", "extract": {"as": "person", "cues": ["employee"]}})
+    plain = process_text(builder.build("scan.pdf", "reader.pdf.v1"), schema, (), RULES)[0]
+    value = process_text(builder.build("scan.pdf", "reader.pdf.v1", warnings=warnings), schema, (), RULES)[0]
+    assert value.value == "Hannah Whitfield"
+    notes = {OCR_EVIDENCE, OCR_LAYER_EVIDENCE} & set(value.evidence)
+    assert notes == ({evidence} if evidence else set())
+    assert value.confidence == pytest.approx(plain.confidence * factor, abs=0.002)
+
+
+@needs_tesseract
+def test_p11_ocr_values_say_they_were_read_by_ocr(tmp_path):
+    path = scanned_pdf(tmp_path / "scan.pdf", OCR_LINES)
+    schema = make_schema({"name": "employee", "type": "string", "extract": {"as": "person", "cues": ["employee"]}})
+    result = extract_document(path, schema, options=ExtractOptions(ner=None, ocr=True))
+    assert "read by OCR" in result.value("employee").evidence
+
+
+@pytest.mark.parametrize(
+    "warnings, words",
+    [
+        ([], "run with --ocr"),
+        (["ocr_unavailable"], "install tesseract-ocr"),
+        (["ocr"], "OCR read no text"),
+    ],
+)
+def test_p11_no_text_layer_note_says_how_to_read_it(warnings: list[str], words: str) -> None:
+    assert words in pdf_reader._no_text_note(warnings)
+
+
+def test_p11_no_text_layer_hint_is_in_documents_csv(tmp_path):
+    path = write(tmp_path, "scan.pdf", image_only_pdf())
+    doc = read(path)
+    assert doc.status is DocStatus.NO_TEXT_LAYER and "--ocr" in doc.note

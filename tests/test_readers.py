@@ -115,7 +115,7 @@ def test_readers_pdf_pages_and_offsets(tmp_path: Path) -> None:
         (lambda p: (p / "empty.pdf").write_bytes(b"") and p / "empty.pdf" or p / "empty.pdf", DocStatus.FAILED, "empty_file"),
         (lambda p: (p / "junk.pdf").write_bytes(b"%PDF-1.4 not really") and p / "junk.pdf", DocStatus.FAILED, "pdf_unreadable"),
         (lambda p: (p / "bad.docx").write_bytes(b"PK\x03\x04 truncated") and p / "bad.docx", DocStatus.FAILED, "not_a_zip"),
-        (lambda p: (p / "locked.docx").write_bytes(b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" + b"\0" * 504) and p / "locked.docx", DocStatus.NEEDS_PASSWORD, "encrypted_office"),
+        (lambda p: (p / "old.docx").write_bytes(b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" + b"\0" * 504) and p / "old.docx", DocStatus.FAILED, "legacy_office"),
         (lambda p: (p / "data.xlsx").write_bytes(b"PK") and p / "data.xlsx", DocStatus.FAILED, "unsupported_format"),
         (lambda p: (p / "blob.txt").write_bytes(b"\x00\x01\x02binary") and p / "blob.txt", DocStatus.FAILED, "not_text"),
         (lambda p: (p / "empty.eml").write_bytes(b"") and p / "empty.eml" or p / "empty.eml", DocStatus.FAILED, "empty_file"),
@@ -126,3 +126,29 @@ def test_readers_bad_documents_get_a_status(tmp_path: Path, build, status: DocSt
     doc = read(path)
     assert doc.status is status and doc.reason == reason
     assert doc.text == "" or status is DocStatus.NO_TEXT_LAYER
+
+
+@pytest.mark.parametrize(
+    "error, reason, words",
+    [
+        pytest.param(MemoryError, "memory_limit", "memory", id="memory-error"),
+        pytest.param(RecursionError, "too_deeply_nested", "nested too deeply", id="recursion-error"),
+        pytest.param(KeyError, "reader_error", "KeyError", id="any-other-exception"),
+    ],
+)
+def test_readers_unclassified_errors_get_a_note(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, error: type, reason: str, words: str) -> None:
+    # RELIABILITY.md §0.6: every non-ok document gets a one-line message; never an empty one
+    from structurize.readers import READERS, reader_for
+
+    path = tmp_path / "note.txt"
+    path.write_text("Employee: Ana Ruiz\n", encoding="utf-8")
+
+    def broken(*args: object) -> None:
+        raise error("Employee: Ana Ruiz")  # the message may quote content: it must not be used
+
+    name = reader_for(path)
+    READERS.ensure_populated()
+    monkeypatch.setitem(READERS._items, name, broken)
+    doc = read(path)
+    assert (doc.status, doc.reason) == (DocStatus.FAILED, reason)
+    assert words in doc.note and "Ana" not in doc.note

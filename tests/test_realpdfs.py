@@ -12,7 +12,8 @@ MANIFEST name → structurize name: ``failed: empty`` → ``failed: empty_file``
 reads form fields" → ``partial: form_fields_not_read``; "OCR layer, lower confidence" →
 warning ``ocr_text_layer``; "spans outside the page box flagged" → ``text_outside_page``;
 "record encrypted_empty_password as metadata" → warning ``encrypted_empty_password``;
-"dedupe doubled chars" → warning ``dedupe_applied``.
+"dedupe doubled chars" → warning ``dedupe_applied``; "keep the text and add warning:
+annots_unreadable" → ``partial: annots_unreadable`` (the text is read, the annotations are not).
 """
 
 from __future__ import annotations
@@ -48,7 +49,7 @@ EXPECTED = {
     11: ("pdfminer.six__samples__contrib__issue-791-non-unicode-cmap.pdf", "ok", "", set()),
     12: ("pdfminer.six__samples__contrib__issue-625-identity-cmap.pdf", "ok", "", {"encrypted_empty_password"}),
     13: ("pdfminer.six__samples__acroform__AcroForm_TEST.pdf", "partial", "form_fields_not_read", set()),
-    14: ("pdfminer.six__samples__contrib__pr-00530-ml-lines.pdf", "ok", "", set()),
+    14: ("pdfminer.six__samples__contrib__pr-00530-ml-lines.pdf", "partial", "annots_unreadable", {"annots_unreadable"}),
     15: ("pdfminer.six__samples__scancode__patchelf.pdf", "suspect_empty", "suspect_empty", set()),
     16: ("pdfplumber__tests__pdfs__empty.pdf", "failed", "empty_file", set()),
     17: ("pdfplumber__tests__pdfs__issue-297-example.pdf", "failed", "no_pages", set()),
@@ -57,7 +58,7 @@ EXPECTED = {
     20: ("pdfplumber__tests__pdfs__nics-background-checks-2015-11-rotated.pdf", "ok", "", set()),
     21: ("pdfplumber__tests__pdfs__issue-203-decimalize.pdf", "no_text_layer", "no_text_layer", set()),
     22: ("pdfplumber__tests__pdfs__pr-136-example.pdf", "ok", "", {"ocr_text_layer"}),
-    23: ("pdfplumber__tests__pdfs__federal-register-2020-17221.pdf", "ok", "", set()),
+    23: ("pdfplumber__tests__pdfs__federal-register-2020-17221.pdf", "partial", "annots_unreadable", {"annots_unreadable"}),
     24: ("pdfplumber__tests__pdfs__issue-842-example.pdf", "ok", "", {"dedupe_applied"}),
     25: ("pdfplumber__tests__pdfs__issue-1054-example.pdf", "ok", "", set()),
     26: ("pdfplumber__tests__pdfs__pr-138-example.pdf", "ok", "", {"encrypted_empty_password"}),
@@ -156,3 +157,21 @@ def test_realpdfs_text_is_right(number, expected):
     doc = read_document(REALPDFS / name, name, ExtractOptions(ner=None))
     assert expected in doc.text
     assert "(cid:" not in doc.text
+
+
+def test_realpdfs_27_annotation_text_decodes():
+    # real #27: a highlight's /Contents is UTF-16BE with a byte-order mark ('日本語'); two more
+    # highlights on page 2 are plain ASCII; their pop-ups repeat nothing
+    name = EXPECTED[27][0]
+    doc = read_document(REALPDFS / name, name, ExtractOptions(ner=None))
+    notes = [(doc.text[r.span.start : r.span.end].strip(), doc.page_of(r.span.start)) for r in doc.regions if r.kind == "annotation"]
+    assert notes == [("日本語", 1), ('"well"', 2), ("table", 2)]
+    assert (doc.status, doc.reason) == (DocStatus.OK, "")
+
+
+@pytest.mark.parametrize("number", [14, 23], ids=lambda n: f"real-{n}")
+def test_realpdfs_unreadable_annotations_keep_the_text(number):
+    name = EXPECTED[number][0]
+    doc = read_document(REALPDFS / name, name, ExtractOptions(ner=None))
+    assert (doc.status, doc.reason) == (DocStatus.PARTIAL, "annots_unreadable")
+    assert len(doc.text) > 5000 and "annotations" in doc.note

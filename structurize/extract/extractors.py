@@ -40,6 +40,11 @@ LABEL_WEIGHT = 0.92
 PROSE_WEIGHT = 0.88
 PROSE_REACH = 110  #: characters after a cue in which a value may start
 EXCLUDED_FACTOR = 0.2
+#: Evidence on every value of a document read (in part) by OCR, which counts 0.8: Tesseract
+#: read it in this run (warning ``ocr``), or it comes from a scan's own OCR text layer
+#: (warning ``ocr_text_layer``).
+OCR_EVIDENCE = "read by OCR"
+OCR_LAYER_EVIDENCE = "read from the scan's OCR text layer"
 
 _FILLERS = {
     "a", "an", "the", "as", "of", "to", "by", "is", "was", "will", "be", "our", "your", "his", "her", "their",
@@ -73,6 +78,7 @@ def _candidate(
         flags.add("encoding_guessed")
     if an.ocr:
         flags.add("ocr")
+        evidence += (OCR_EVIDENCE if "ocr" in an.doc.warnings else OCR_LAYER_EVIDENCE,)
     raw = an.text[reading.start : reading.end]
     if "\ufffd" in raw or UNICODE_CONTROLS.search(raw):
         flags.add("unreadable_characters")  # a reviewer must see what the value really holds

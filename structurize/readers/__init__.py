@@ -30,6 +30,9 @@ READERS: Registry[Reader] = Registry("reader", "structurize.readers")
 EMPTY_SHA256 = hashlib.sha256(b"").hexdigest()
 #: file suffix (lower case, with the dot) → reader name.
 SUFFIXES: dict[str, str] = {}
+#: Notes of the failures a reader does not classify itself (never empty: RELIABILITY.md §0.6).
+MEMORY_NOTE = "reading the document needed more memory than the limit"
+NESTED_NOTE = "the document's structure is nested too deeply to read"
 
 
 def register_reader(name: str, suffixes: tuple[str, ...], reader: Reader) -> None:
@@ -137,9 +140,9 @@ def _read(path: Path, source: str, options: ExtractOptions, name: str) -> Docume
     except ReadFailure as failure:
         return _failed(source, name, DocStatus(failure.status), failure.code, failure.detail)
     except MemoryError:
-        return _failed(source, name, DocStatus.FAILED, "memory_limit", "")
+        return _failed(source, name, DocStatus.FAILED, "memory_limit", MEMORY_NOTE)
     except RecursionError:
-        return _failed(source, name, DocStatus.FAILED, "too_deeply_nested", "")
+        return _failed(source, name, DocStatus.FAILED, "too_deeply_nested", NESTED_NOTE)
     except OSError as exc:
         return _failed(source, name, DocStatus.FAILED, "unreadable_file", exc.strerror or type(exc).__name__)
     except Exception as exc:  # noqa: BLE001 - a parser bug must fail one document only

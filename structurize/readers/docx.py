@@ -4,7 +4,10 @@ The container is checked before python-docx opens it (RELIABILITY.md §1.5, cata
 D1–D10), because the library does not bound what it inflates and a future python-docx may
 lift libxml2's limits (``huge_tree``):
 
-* OLE2 magic (a password-protected or legacy Office file) → ``needs_password: encrypted_office``;
+* OLE2 magic: an OOXML package encrypted with a password (an OLE2 compound file holding
+  the streams ``EncryptionInfo`` and ``EncryptedPackage``, MS-OFFCRYPTO §2.3.4) →
+  ``needs_password: encrypted_office``; any other OLE2 file (a legacy .doc, .xls … renamed
+  .docx) → ``failed: legacy_office`` ("save it as .docx");
 * not a zip, or a truncated or corrupt one → ``failed: not_a_zip``;
 * more than ``limits.zip_members`` members, a declared total over ``limits.zip_total_bytes``,
   or a large member inflating more than ``limits.zip_ratio`` times → ``failed: zip_limits``;
@@ -30,6 +33,13 @@ from ..types import Document
 from .builder import TextBuilder
 
 OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
+#: The streams of an encrypted OOXML package (MS-OFFCRYPTO §2.3.4.1): both must be there.
+ENCRYPTED_STREAMS = ("EncryptionInfo", "EncryptedPackage")
+#: Size of a directory entry of a compound file (MS-CFB §2.6); every entry starts at a
+#: multiple of it in the file, whatever the sector size (512 or 4096 bytes).
+_DIR_ENTRY = 128
+#: Bytes of a compound file searched for its directory entries.
+OLE_SCAN_BYTES = 64 * 1024 * 1024
 #: A member this small may inflate any number of times (tiny XML parts compress well).
 RATIO_EXEMPT_BYTES = 1024 * 1024
 CHUNK = 1 << 16
@@ -53,7 +63,9 @@ def read_docx(path: Path, source: str, options: ExtractOptions) -> Document:
     if not head:
         raise ReadFailure("failed", "empty_file", "the file is empty")
     if head == OLE_MAGIC:
-        raise ReadFailure("needs_password", "encrypted_office", "password-protected or legacy Office file")
+        if encrypted_ooxml(path, min(OLE_SCAN_BYTES, options.limits.zip_total_bytes)):
+            raise ReadFailure("needs_password", "encrypted_office", "a password-protected Office document; remove the password and save it again")
+        raise ReadFailure("failed", "legacy_office", "a legacy Office file (.doc, OLE2), not a .docx; open it in Word and save it as .docx")
     check_container(path, options.limits)
     import docx  # lazy: python-docx pulls in lxml
     from docx.opc.exceptions import OpcError
@@ -88,6 +100,48 @@ def read_docx(path: Path, source: str, options: ExtractOptions) -> Document:
         if style.lower().startswith(("heading", "title")):
             builder.blank()
     return builder.build(source, "reader.docx.v1")
+
+
+def _dir_entry(name: str, object_type: int) -> bytes:
+    """The first 67 bytes of a compound-file directory entry (MS-CFB §2.6.1) naming ``name``:
+    the UTF-16LE name padded with zeros to 64 bytes, its length with the terminator, its type."""
+    encoded = name.encode("utf-16-le") + b"\x00\x00"
+    return encoded.ljust(64, b"\x00") + len(encoded).to_bytes(2, "little") + bytes([object_type])
+
+
+_STREAM_ENTRIES = tuple(_dir_entry(name, 2) for name in ENCRYPTED_STREAMS)  # 2: a stream object
+
+
+def encrypted_ooxml(path: Path, limit: int) -> bool:
+    """Whether the compound file at ``path`` holds the streams of an encrypted OOXML package.
+
+    Directory entries are found where the format puts them: at 128-byte boundaries, as the
+    exact bytes of an entry naming the stream.  No FAT chain is followed, so a damaged
+    file cannot send the search anywhere; the first ``limit`` bytes are searched.
+    """
+    found: set[bytes] = set()
+    carry = b""
+    offset = 0  # file offset of carry[0]
+    with path.open("rb") as handle:
+        while offset + len(carry) < limit:
+            chunk = handle.read(min(1 << 20, limit - offset - len(carry)))
+            if not chunk:
+                break
+            window = carry + chunk
+            for entry in _STREAM_ENTRIES:
+                at = window.find(entry)
+                while at >= 0:
+                    if (offset + at) % _DIR_ENTRY == 0:
+                        found.add(entry)
+                        break
+                    at = window.find(entry, at + 1)
+            keep = len(window) - (len(window) % _DIR_ENTRY) - _DIR_ENTRY
+            keep = max(0, keep)
+            offset += keep
+            carry = window[keep:]
+            if len(found) == len(_STREAM_ENTRIES):
+                return True
+    return False
 
 
 def _style_name(paragraph: Any, names: dict[str | None, str]) -> str:

@@ -8,11 +8,17 @@ messages inside the body are marked as regions, so that fields describe this mes
 never the headers quoted in it.
 
 Hostile messages (RELIABILITY.md §1.7, catalogue E1–E5) are bounded before the stdlib parser
-sees them: the file is streamed through :func:`bounded_message`, which drops the content of
+sees them: a file larger than ``limits.email_bytes`` is ``failed: too_large`` before it is
+read; the file is streamed through :func:`bounded_message`, which drops the content of
 any MIME part larger than ``limits.email_part_bytes`` (warning ``attachment_skipped``; the
 rest of the message is still read) and stops at ``limits.email_parts`` parts or
 ``limits.email_depth`` levels of nesting (``partial: mime_limits``; what came before is
-read).  A body in an unknown charset is decoded with a fallback (warning
+read).  When the dropped part is the one the message's text comes from — the body of a
+message without MIME parts, or the inline text/plain or text/html part chosen as the body —
+the text is lost, so the message is ``partial: mime_limits`` too (not
+``attachment_skipped``).  A MIME structure the stdlib
+cannot search for the body (``get_body`` raises) is ``partial: bad_mime_structure``: the
+headers are read, the body is not.  A body in an unknown charset is decoded with a fallback (warning
 ``unknown_charset``, and the document's encoding counts as guessed, which lowers the
 confidence of its values); undecodable encoded words in headers become U+FFFD with the
 warning ``header_decode``.  Attachments are never written anywhere, under their declared
@@ -35,7 +41,7 @@ from ..errors import ReadFailure
 from ..options import ExtractOptions, Limits
 from ..types import Address, Document, DocStatus, Header, Region, Span
 from .builder import TextBuilder, clean
-from .decode import MOJIBAKE, decode_fallback
+from .decode import MOJIBAKE, _too_large, decode_fallback
 from .html import html_to_builder
 
 HEADER_ORDER = ("From", "Sender", "Reply-To", "To", "Cc", "Date", "Subject")
@@ -50,6 +56,8 @@ _OUTLOOK_NEXT = re.compile(r"^\s*(Sent|Date|To|Subject):\s", re.IGNORECASE)
 
 
 def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
+    if path.stat().st_size > options.limits.email_bytes:
+        raise _too_large(options.limits.email_bytes)  # before any byte is parsed
     bounded = bounded_message(path, options.limits)
     raw = bounded.data
     if not raw.strip():
@@ -76,12 +84,22 @@ def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
     _mark_quotes(builder, body_start)
     if _has_defects(message, options.limits):
         warnings.append("email_defects")
-    if bounded.skipped:
+    # the text is lost when the part the body was taken from was dropped (it is empty now);
+    # a dropped alternative (the HTML of a message read from its text/plain part) is not
+    text_lost = bool(bounded.text_skipped) and not builder.text()[body_start:].strip()
+    if bounded.skipped > int(text_lost):
         warnings.append("attachment_skipped")
     status, reason, note = DocStatus.OK, "", ""
     if bounded.limit_hit:
         warnings.append("mime_limits")
         status, reason, note = DocStatus.PARTIAL, "mime_limits", f"the message has {bounded.limit_hit}; the rest was not read"
+    elif text_lost:
+        warnings.append("mime_limits")
+        status, reason = DocStatus.PARTIAL, "mime_limits"
+        note = f"the message text is larger than the per-part limit ({_shown(options.limits.email_part_bytes)}) and was not read"
+    elif "bad_mime_structure" in warnings:
+        status, reason = DocStatus.PARTIAL, "bad_mime_structure"
+        note = "the message's MIME structure could not be searched for its text; only the headers were read"
     return builder.build(
         source,
         "reader.email.v1",
@@ -92,6 +110,10 @@ def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
         reason=reason,
         note=note,
     )
+
+
+def _shown(size: int) -> str:
+    return f"{size / (1024 * 1024):g} MB" if size >= 1024 * 1024 else f"{size} bytes"
 
 
 def _has_defects(message: EmailMessage, limits: Limits) -> bool:
@@ -239,7 +261,9 @@ def _add_body(builder: TextBuilder, message: EmailMessage, warnings: list[str], 
     """Append the body text; return the fallback encoding when the declared charset failed."""
     try:
         part = message.get_body(preferencelist=("plain", "html"))
-    except Exception:
+    except MemoryError:
+        raise
+    except Exception:  # noqa: BLE001 - the stdlib walks a malformed tree with many errors (fuzzed)
         part = None
         warnings.append("bad_mime_structure")
     if part is None:
@@ -285,12 +309,15 @@ class Bounded:
     data: bytes
     skipped: int  #: parts whose content was dropped for size
     limit_hit: str  #: "" or which limit stopped the read ("more than 1000 MIME parts")
+    text_skipped: int = 0  #: of those, parts that held the message's text (not attachments)
 
 
 _LINE = 1 << 16  #: bytes read at a time; a line longer than this is read in pieces
 _HEADER_BLOCK_BYTES = 1 << 20
 _BOUNDARY = re.compile(rb'boundary\s*=\s*(?:"([^"\r\n]{1,200})"|([^\s;"]{1,200}))', re.IGNORECASE)
 _CONTENT_TYPE = re.compile(rb"^content-type\s*:\s*([a-z0-9!#$&^_.+-]+/[a-z0-9!#$&^_.+-]+)", re.IGNORECASE | re.MULTILINE)
+_ATTACHMENT = re.compile(rb"^content-disposition\s*:\s*attachment\b", re.IGNORECASE | re.MULTILINE)
+_TEXT_MEDIA = (b"text/plain", b"text/html")
 
 
 def bounded_message(path: Path, limits: Limits) -> Bounded:
@@ -300,10 +327,16 @@ def bounded_message(path: Path, limits: Limits) -> Bounded:
     content is buffered up to ``limits.email_part_bytes`` and dropped (headers kept) when it
     grows past that; parts beyond ``limits.email_parts`` or nested deeper than
     ``limits.email_depth`` end the read there.  A message within the limits comes back byte
-    for byte, so the stdlib parser sees exactly the file.
+    for byte, so the stdlib parser sees exactly the file.  A dropped part is counted in
+    ``text_skipped`` too when it held the message's text: a text/plain or text/html part
+    (the default for a message without MIME parts) that is not marked as an attachment.
+    More than ``limits.email_bytes`` read in all (a file that grew) is ``failed: too_large``.
     """
     out = bytearray()
     skipped = 0
+    text_skipped = 0
+    text_part = False  #: the current part's content is message text, not an attachment
+    total = 0
     limit_hit = ""
     #: open nesting levels, outermost first: a multipart's delimiter ("--" + boundary), or
     #: None for an enclosed message (message/rfc822), which ends with its enclosing part
@@ -316,7 +349,7 @@ def bounded_message(path: Path, limits: Limits) -> Bounded:
     at_line_start = True
 
     def end_headers() -> None:
-        nonlocal in_headers, limit_hit
+        nonlocal in_headers, limit_hit, text_part
         block = bytes(header)
         out.extend(block)
         header.clear()
@@ -324,6 +357,7 @@ def bounded_message(path: Path, limits: Limits) -> Bounded:
         unfolded = re.sub(rb"\r?\n[ \t]+", b" ", block)
         kind = _CONTENT_TYPE.search(unfolded)
         media = kind.group(1).lower() if kind else b"text/plain"
+        text_part = media in _TEXT_MEDIA and _ATTACHMENT.search(unfolded) is None
         if media.startswith(b"multipart/"):
             found = _BOUNDARY.search(unfolded)
             if found:
@@ -346,6 +380,9 @@ def bounded_message(path: Path, limits: Limits) -> Bounded:
             piece = handle.readline(_LINE)
             if not piece:
                 break
+            total += len(piece)
+            if total > limits.email_bytes:
+                raise _too_large(limits.email_bytes)  # the file grew after its size was checked
             line_start, at_line_start = at_line_start, piece.endswith(b"\n")
             if line_start and piece.startswith(b"--") and any(levels):
                 delimiter = piece.rstrip(b"\r\n").rstrip(b" \t")
@@ -364,6 +401,7 @@ def bounded_message(path: Path, limits: Limits) -> Bounded:
                     if closing:
                         levels.pop()
                         in_headers = False
+                        text_part = False  # what follows is an epilogue, not message text
                     else:
                         parts += 1
                         if parts > limits.email_parts:
@@ -383,10 +421,11 @@ def bounded_message(path: Path, limits: Limits) -> Bounded:
                 body.clear()
                 dropping = True
                 skipped += 1
+                text_skipped += text_part
     if in_headers:
         out.extend(header)
     end_body()
-    return Bounded(bytes(out), skipped, limit_hit)
+    return Bounded(bytes(out), skipped, limit_hit, text_skipped)
 
 
 def _mark_quotes(builder: TextBuilder, body_start: int) -> None:

@@ -28,6 +28,20 @@ Before and while a file is parsed (RELIABILITY.md §1.6, catalogue P1–P11):
 * ``RecursionError`` (deeply nested objects) is ``failed: pdf_structure``; an error on one
   page of several makes the document ``partial: page_unreadable``.
 
+A feature that fails while the text is read fails only that feature (RELIABILITY.md §0.4):
+the document is ``partial`` with a warning of the same name as its reason —
+``image_only_pages`` (some pages are images only and were not read by OCR: their text is
+missing), ``annots_unreadable`` (the page's annotations could not be read, e.g. they refer
+back to each other), ``tables_unreadable`` (table detection failed; the table's text is
+kept as plain lines) and ``metadata_unreadable`` (the document information dictionary).
+
+Annotations: the text (``/Contents``) of the markup annotations of a page read by
+pdfplumber — comments, notes, highlights, free text, stamps — follows the page's own text,
+one line per line of the comment, and is marked as a region of kind ``"annotation"``
+(:data:`ANNOTATION_REGION`).  Links, pop-ups (they repeat their parent's text) and form
+widgets (``form_fields_not_read``) are not read.  The fast path leaves every page with
+annotations to pdfplumber.
+
 pdfminer and pdfplumber report data loss through ``logging``.  A handler is attached for
 each document and their loggers stop propagating meanwhile, so that nothing they log
 (which may quote the file) reaches stderr or the application's logs; what matters becomes
@@ -41,7 +55,7 @@ import contextlib
 import logging
 import zlib
 from collections.abc import Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from operator import itemgetter
 from pathlib import Path
 from typing import Any
@@ -63,6 +77,18 @@ SIGNATURE_WINDOW = 1024
 TAIL_WINDOW = 2048
 #: Share of the page an image must cover for the page to count as a scan.
 SCAN_COVERAGE = 0.85
+#: Region kind of annotation text (comments, notes) appended after a page's own text.
+ANNOTATION_REGION = "annotation"
+#: Annotation subtypes whose ``/Contents`` is not read: links and pop-ups (a pop-up shows
+#: its parent's text), form widgets (their values are AcroForm data), and page furniture.
+_ANNOTS_SKIPPED = frozenset({"Link", "Popup", "Widget", "PrinterMark", "TrapNet", "Watermark", "Screen", "Movie", "3D", "RichMedia"})
+#: Deepest chain of objects an annotation may refer to (ordinary ones stay under 20; a cycle
+#: never ends) and the objects resolved for the annotations of one document.
+ANNOT_DEPTH = 200
+ANNOT_OBJECTS = 1_000_000
+#: Reason codes of a partial document, most important first; only the first one found is
+#: the document's reason, every one is a warning.
+_PARTIAL_FEATURES = ("image_only_pages", "annots_unreadable", "tables_unreadable", "metadata_unreadable")
 _LOGGERS = ("pdfminer", "pdfplumber")
 
 
@@ -445,6 +471,10 @@ class _Stats:
     ocr_pages: int = 0
     image_only_pages: int = 0  #: pages with images or drawings and no characters (not OCR'd)
     form_values: int = 0  #: filled AcroForm fields
+    annot_chars: int = 0  #: characters of annotation text (not page text: no status counts them)
+    annots_failed: int = 0  #: pages whose annotations could not be read
+    annot_objects: int = field(default_factory=lambda: ANNOT_OBJECTS)  #: objects left to resolve for annotations
+    tables_failed: int = 0  #: pages where table detection failed
 
 
 def _read_pages(pdf: Any, path: Path, options: ExtractOptions) -> tuple[TextBuilder, _Stats]:
@@ -667,6 +697,11 @@ def _layout(pdf: Any, page: Any, stats: _Stats, options: ExtractOptions) -> int:
 
 
 def _read_page(builder: TextBuilder, pdf: Any, page: Any, stats: _Stats, options: ExtractOptions, ocr: Any) -> None:
+    _read_page_text(builder, pdf, page, stats, options, ocr)
+    _add_annotations(builder, page, stats, options)
+
+
+def _read_page_text(builder: TextBuilder, pdf: Any, page: Any, stats: _Stats, options: ExtractOptions, ocr: Any) -> None:
     invisible = _layout(pdf, page, stats, options)
     deduped, removed = _dedupe(page)
     chars = deduped.chars
@@ -685,7 +720,7 @@ def _read_page(builder: TextBuilder, pdf: Any, page: Any, stats: _Stats, options
             builder.warnings.append("hidden_text")
         if _outside(page, chars):
             builder.warnings.append("text_outside_page")
-        _add_page(builder, deduped, page.page_number)
+        _add_page(builder, deduped, page.page_number, stats)
         return
     if not images and not page.curves and not page.rects:
         return  # a blank page
@@ -758,6 +793,15 @@ def _dedupe(page: Any) -> tuple[Any, bool]:
     return page.filter(lambda obj: obj.get("object_type") != "char" or id(obj) in keep), True
 
 
+def _no_text_note(warnings: list[str]) -> str:
+    """How to read a PDF of page images: the hint depends on whether OCR was asked for."""
+    if "ocr_unavailable" in warnings:
+        return "no text layer (a scan?); --ocr needs Tesseract: install tesseract-ocr and tesseract-ocr-eng"
+    if "ocr_failed" in warnings or "ocr" in warnings:
+        return "no text layer, and OCR read no text from its pages"
+    return "no text layer (a scan?); run with --ocr to read it (needs tesseract-ocr)"
+
+
 def _finish(builder: TextBuilder, source: str, stats: _Stats, logged: set[str], has_end: bool) -> Document:
     if stats.pages == 0:
         raise ReadFailure("failed", "no_pages", "the PDF has no pages")
@@ -765,6 +809,8 @@ def _finish(builder: TextBuilder, source: str, stats: _Stats, logged: set[str], 
         raise stats.failure
     if stats.image_only_pages and stats.chars:
         builder.warnings.append("image_only_pages")
+    if stats.annots_failed:
+        builder.warnings.append("annots_unreadable")
     if stats.failed_pages:
         builder.warnings.append("page_unreadable")
     if not has_end:
@@ -773,6 +819,8 @@ def _finish(builder: TextBuilder, source: str, stats: _Stats, logged: set[str], 
     if stats.chars == 0:
         status = DocStatus.NO_TEXT_LAYER if stats.images or stats.image_only_pages else DocStatus.SUSPECT_EMPTY
         reason = status.value
+        if status is DocStatus.NO_TEXT_LAYER:
+            note = _no_text_note(builder.warnings)
     elif stats.failed_pages:
         status, reason = DocStatus.PARTIAL, "page_unreadable"
         note = f"{stats.failed_pages} of {stats.pages} pages could not be read"
@@ -783,14 +831,146 @@ def _finish(builder: TextBuilder, source: str, stats: _Stats, logged: set[str], 
     elif stats.form_values:
         status, reason = DocStatus.PARTIAL, "form_fields_not_read"
         note = f"{stats.form_values} filled form fields are not read (their values are not page text)"
+    else:
+        found = set(builder.warnings) | logged
+        feature = next((name for name in _PARTIAL_FEATURES if name in found), None)
+        if feature is not None:
+            status, reason, note = DocStatus.PARTIAL, feature, _feature_note(feature, stats)
     return builder.build(source, "reader.pdf.v1", status=status, reason=reason, note=note)
 
 
-def _add_page(builder: TextBuilder, page: Any, number: int) -> None:
+def _feature_note(feature: str, stats: _Stats) -> str:
+    """The note of a document that is partial because one feature failed (never content)."""
+    if feature == "image_only_pages":
+        return f"{stats.image_only_pages} of {stats.pages} pages are images only and were not read (no OCR); their text is missing"
+    if feature == "annots_unreadable":
+        return f"the annotations (comments, links) of {stats.annots_failed} of {stats.pages} pages could not be read; the page text was"
+    if feature == "tables_unreadable":
+        return f"table detection failed on {stats.tables_failed} of {stats.pages} pages; their tables were read as plain lines"
+    return "the document information (metadata) could not be read; the page text was"
+
+
+def _add_annotations(builder: TextBuilder, page: Any, stats: _Stats, options: ExtractOptions) -> None:
+    """Append the text of the page's markup annotations, marked as :data:`ANNOTATION_REGION`.
+
+    Every annotation is first resolved the way pdfplumber's ``page.annots`` resolves it
+    (``resolve_all``: every object it refers to, stopping at pages and at an annotation's
+    ``/Parent``), but within :data:`ANNOT_DEPTH` levels and a budget of
+    :data:`ANNOT_OBJECTS` objects per document: annotations that refer back to each other
+    (real #14 and #23, where pdfplumber fails on recursion) or that share objects so as to
+    multiply the walk (a 1 KB file can ask pdfplumber for 2**40 steps) make the page's
+    annotations unreadable: their text is left out and the page is counted for the warning
+    ``annots_unreadable``.  ``/Contents`` is decoded as a PDF text string (UTF-16 or UTF-8
+    with a byte-order mark, otherwise PDFDocEncoding; real #27).
+    """
+    try:
+        texts = _annotation_texts(page, stats)
+    except MemoryError:
+        raise
+    except Exception:  # noqa: BLE001 - _AnnotsUnreadable, broken objects, pdfminer's errors ...
+        stats.annots_failed += 1
+        return
+    for text in texts:
+        stats.annot_chars += len(text)
+        if stats.chars + stats.annot_chars > options.limits.chars:
+            raise _too_many_chars(options.limits.chars)
+        start = builder.offset
+        builder.add_text(text)
+        builder.mark(ANNOTATION_REGION, start)
+
+
+class _AnnotsUnreadable(Exception):
+    """An annotation nests too deeply (a cycle) or refers to too many objects."""
+
+
+def _deref(obj: Any) -> Any:
+    """pdfminer's ``resolve1`` with a bound: ``8 0 obj 8 0 R endobj`` makes it loop forever."""
+    from pdfminer.pdftypes import PDFObjRef
+
+    for _ in range(32):
+        if not isinstance(obj, PDFObjRef):
+            return obj
+        obj = obj.resolve()
+    raise _AnnotsUnreadable()
+
+
+def _annotation_texts(page: Any, stats: _Stats) -> list[str]:
+    if page.page_obj.annots is None:
+        return []
+    raw = _deref(page.page_obj.annots)
+    if not isinstance(raw, list):
+        raw = [raw]
+    annots = [_deref(annot) for annot in raw]
+    for annot in annots:
+        _walk_annotation(annot, stats)
+    texts = []
+    for annot in annots:
+        if not isinstance(annot, dict):
+            continue
+        kind = getattr(_deref(annot.get("Subtype")), "name", None)
+        if kind is None or kind in _ANNOTS_SKIPPED:
+            continue
+        text = _pdf_text(_deref(annot.get("Contents")))
+        text = "\n".join(line.strip() for line in text.replace("\r\n", "\n").replace("\r", "\n").split("\n") if line.strip())
+        if text:
+            texts.append(text)
+    return texts
+
+
+def _walk_annotation(annot: Any, stats: _Stats) -> None:
+    """Resolve everything ``annot`` refers to, as pdfplumber's ``resolve_all`` does, within
+    :data:`ANNOT_DEPTH` levels and the document's budget (``stats.annot_objects``, spent
+    here: once it is gone, every later page's annotations are unreadable at once)."""
+    from pdfminer.pdftypes import PDFObjRef
+    from pdfminer.psparser import PSLiteral
+
+    def kind(obj: Any) -> Any:
+        value = obj.get("Type") if isinstance(obj, dict) else None
+        return value.name if isinstance(value, PSLiteral) else value
+
+    stack: list[tuple[Any, int]] = [(annot, 0)]
+    while stack:
+        obj, depth = stack.pop()
+        stats.annot_objects -= 1
+        if stats.annot_objects < 0 or depth > ANNOT_DEPTH:
+            raise _AnnotsUnreadable()
+        if isinstance(obj, PDFObjRef):
+            resolved = obj.resolve()
+            if kind(resolved) not in ("Page", b"Page"):  # pdfplumber stops at pages
+                stack.append((resolved, depth + 1))
+        elif isinstance(obj, (list, tuple)):
+            stack.extend((item, depth + 1) for item in obj)
+        elif isinstance(obj, dict):
+            skip = "Parent" if kind(obj) in ("Annot", b"Annot") else None
+            stack.extend((value, depth + 1) for key, value in obj.items() if key != skip)
+
+
+def _pdf_text(value: Any) -> str:
+    """A PDF text string (ISO 32000-2 §7.9.2.2): UTF-16BE or UTF-8 after a byte-order mark,
+    else PDFDocEncoding.  A UTF-16LE byte-order mark, which some writers use, is honoured."""
+    from pdfminer.utils import PDFDocEncoding
+
+    if isinstance(value, str):
+        return value
+    if not isinstance(value, bytes):
+        return ""
+    if value.startswith(b"\xfe\xff"):
+        return value[2:].decode("utf-16-be", errors="replace")
+    if value.startswith(b"\xff\xfe"):
+        return value[2:].decode("utf-16-le", errors="replace")
+    if value.startswith(b"\xef\xbb\xbf"):
+        return value[3:].decode("utf-8", errors="replace")
+    return "".join(PDFDocEncoding[byte] for byte in value)
+
+
+def _add_page(builder: TextBuilder, page: Any, number: int, stats: _Stats) -> None:
     try:
         tables = [t for t in page.find_tables() if t.bbox]
-    except Exception:
+    except MemoryError:
+        raise
+    except Exception:  # noqa: BLE001 - the page's text is still read, as lines
         builder.warnings.append("tables_unreadable")
+        stats.tables_failed += 1
         tables = []
     boxes = [t.bbox for t in tables]
     items: list[tuple[float, int, Any]] = []

@@ -26,7 +26,8 @@ streams) fails one of these tests, so its status, reason and warnings stay pdfmi
 **A page** of such a document goes to pdfplumber when PDFium's page objects hold anything
 but text (a path may rule a table; an image may be a scan, a form XObject may loop), when
 it is rotated, when a text object is not upright, has zero width or overprints another one
-(fake bold: pdfplumber de-duplicates it and says so), or when its text has characters
+(fake bold: pdfplumber de-duplicates it and says so), when it has annotations (pdfplumber
+reads their text, or reports that it cannot), or when its text has characters
 PDFium could not map, control characters, private-use or right-to-left characters, or
 characters outside the page box.
 
@@ -345,6 +346,8 @@ class FastDocument:
         if box is None:
             return None
         left, bottom, right, top = box
+        if raw.FPDFPage_GetAnnotCount(page) != 0:
+            return None  # annotations: pdfplumber reads their text (or reports annots_unreadable)
         count = raw.FPDFPage_CountObjects(page)
         if count == 0:
             return FastPage([], 0)  # a blank page
