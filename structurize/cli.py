@@ -22,7 +22,7 @@ from .errors import StructurizeError, UsageError
 from .options import PASSWORD_ENV, ExtractOptions
 from .types import DocStatus
 from .schema import TargetSchema, load_schema
-from .store import Store
+from .store import Store, network_filesystem
 from .score import score_path
 from .write import write_outputs
 
@@ -139,6 +139,10 @@ def _jobs(input_path: Path, schema: Path, output: Path) -> list[tuple[Path, Path
 
 def _open_store(path: Path, *, lock: bool, quiet: bool, create: bool = True) -> Store:
     opened = Store.open(path, create=create)
+    remote = network_filesystem(path)
+    if lock and remote and not quiet:
+        err.print(f"structurize: {_escape(str(path))}: warning: the store is on a network file system ({remote}); "
+                  "SQLite's locking is not reliable there: keep it on a local disk", markup=False)
     if lock:
         try:
             message = opened.acquire()

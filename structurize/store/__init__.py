@@ -65,11 +65,40 @@ def _explain(exc: sqlite3.Error, path: Path) -> StoreError:
         return StoreError(f"store corrupt: {path}; restore it from a backup (it was not changed)")
     if "full" in text or "disk i/o" in text or "no space" in text:
         return StoreError(f"store {path}: no space left on the device, or the disk cannot be written")
-    if "readonly" in text or "read-only" in text:
+    if "readonly" in text or "read-only" in text or ("unable to open" in text and not _writable(path)):
         return StoreError(f"store {path}: the store or its folder is read-only")
     if "locked" in text or "busy" in text:
         return StoreBusy(f"store {path}: busy (another process is writing it)")
     return StoreError(f"store {path}: {exc}")
+
+
+def _writable(path: Path) -> bool:
+    folder = path.parent if path.parent != Path("") else Path(".")
+    return os.access(folder, os.W_OK) and (not path.exists() or os.access(path, os.W_OK))
+
+
+#: File systems on which SQLite's locking cannot be trusted (SQLite documentation, "How To
+#: Corrupt An SQLite Database File", §2.1: network file systems).
+NETWORK_FILESYSTEMS = ("nfs", "nfs4", "cifs", "smb3", "smbfs", "9p", "fuse.sshfs", "afs")
+MOUNTS = Path("/proc/mounts")
+
+
+def network_filesystem(path: Path) -> str | None:
+    """The type of the network file system ``path`` lives on (Linux /proc/mounts), or None."""
+    try:
+        mounts = MOUNTS.read_text(encoding="utf-8", errors="replace").splitlines()
+    except OSError:
+        return None
+    target = os.path.realpath(path.parent if not path.exists() else path)
+    best, kind = "", None
+    for line in mounts:
+        fields = line.split()
+        if len(fields) < 3:
+            continue
+        point = fields[1].replace("\\040", " ")
+        if (target == point or target.startswith(point.rstrip("/") + "/")) and len(point) >= len(best):
+            best, kind = point, fields[2]
+    return kind if kind in NETWORK_FILESYSTEMS else None
 
 
 class Store:
@@ -97,8 +126,11 @@ class Store:
         try:
             path.parent.mkdir(parents=True, exist_ok=True)
             db = sqlite3.connect(str(path), timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None)
-        except (sqlite3.Error, OSError) as exc:
-            raise StoreError(f"store {path}: cannot be opened ({exc})") from None
+        except sqlite3.Error as exc:
+            explained = _explain(exc, path)
+            raise (explained if "read-only" in str(explained) else StoreError(f"store {path}: cannot be opened ({exc})")) from None
+        except OSError as exc:
+            raise StoreError(f"store {path}: cannot be opened ({exc.strerror or exc})") from None
         store = cls(path, db)
         try:
             store._check_and_migrate(exists)
