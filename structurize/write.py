@@ -14,8 +14,8 @@ in canonical form, such as the raw text of an invalid value, is guarded like tex
 file is written to a temporary file in the same folder, synced, then renamed over the old
 one, only once every file is complete.
 
-No writer may crash halfway on what a document contained (RELIABILITY.md §1.9, catalogue
-T11): before anything is written, NUL and the other C0/C1 control characters (except tab,
+No writer may crash halfway on what a document contained (cpython #97503 on NUL in the csv
+writer; pandas #22610 and pgpq #103 on lone surrogates; catalogue T11 in tests/CATALOGUE.md): before anything is written, NUL and the other C0/C1 control characters (except tab,
 line feed and carriage return) and lone surrogates are replaced by U+FFFD in every cell,
 header and descriptor.  ``datapackage.json`` records how many cells were changed
 (``structurize.sanitised_cells``) and that the formula guard is on, and the ``reason`` of

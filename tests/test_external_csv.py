@@ -2,12 +2,12 @@
 
 Sources:
 
-* RFC 4180 §2 rules 1–7 (CHECK_SOURCES.md A3; rule text from memory, behaviour verified
-  with the stdlib ``csv`` module, which is the reference reader here: ``encoding="utf-8-sig"``,
+* RFC 4180 §2 rules 1–7 (rule text from memory; behaviour measured with the stdlib ``csv``
+  module of CPython 3.11, which is the reference reader here: ``encoding="utf-8-sig"``,
   ``newline=""``).  The §2.7 example ``"aaa","b""bb","ccc"`` is from the RFC (from memory).
-* OWASP "CSV Injection" and OWASP ASVS 5.0 requirement 1.2.10, as listed in
-  /work/shared/reference/RELIABILITY.md §1.2: the formula characters ``= + - @``, TAB, CR,
-  LF and NUL, the test vectors, and the worked example ``=1+2";=1+2`` → ``"'=1+2"";=1+2"``.
+* OWASP CSV Injection (www-community, 'CSV Injection', with LF added by its PR #1116) and
+  OWASP ASVS 5.0 1.2.10: the formula characters ``= + - @``, TAB, CR, LF and NUL, the test
+  vectors, and OWASP's worked example ``=1+2";=1+2`` → ``"'=1+2"";=1+2"``.
 """
 
 from __future__ import annotations
@@ -23,7 +23,7 @@ BOM = b"\xef\xbb\xbf"
 
 
 def _read_back(tmp_path: Path, data: bytes) -> list[list[str]]:
-    # The reference reader: stdlib csv, utf-8-sig, newline="" (CHECK_SOURCES.md A3 / B1)
+    # The reference reader: stdlib csv, utf-8-sig, newline="" (Python csv documentation)
     path = tmp_path / "out.csv"
     path.write_bytes(data)
     with path.open(encoding="utf-8-sig", newline="") as handle:
@@ -61,7 +61,7 @@ def test_csv_bytes_rfc4180_round_trip(tmp_path, value, bom):
 
 @pytest.mark.parametrize(("bom", "starts_with_bom"), [(True, True), (False, False)], ids=["bom", "no-bom"])
 def test_csv_bytes_bom_present_iff_requested(bom, starts_with_bom):
-    # CHECK_SOURCES.md B1: UTF-8 with BOM for Excel; none for pipelines
+    # UTF-8 with BOM for Excel, none for pipelines (common practice, no source)
     data = csv_bytes(["name"], [["López"]], bom=bom)
     assert data.startswith(BOM) is starts_with_bom
     assert data.count(BOM) == (1 if bom else 0)
@@ -98,7 +98,7 @@ def test_csv_bytes_rfc4180_records_end_with_crlf(rows):
     ],
 )
 def test_csv_bytes_rfc4180_exact_bytes(row, expected):
-    # every field quoted (RFC 4180 §2.5 allows it; RELIABILITY.md §1.2 requires it)
+    # every field quoted (RFC 4180 §2.5 allows it; OWASP CSV Injection requires it)
     data = csv_bytes(["h1", "h2", "h3"], [row], bom=False)
     assert data == b'"h1","h2","h3"\r\n' + expected
 
@@ -106,7 +106,7 @@ def test_csv_bytes_rfc4180_exact_bytes(row, expected):
 # --- OWASP CSV Injection / ASVS 5.0 1.2.10 --------------------------------------------------------
 
 INJECTION_VECTORS = [
-    # RELIABILITY.md §1.2 test vectors (OWASP "CSV Injection"; ASVS 5.0 1.2.10)
+    # test vectors for OWASP CSV Injection (www-community, 'CSV Injection') and ASVS 5.0 1.2.10
     pytest.param('=HYPERLINK("http://x/?"&A1,"click")', id="equals-hyperlink"),
     pytest.param("@SUM(1+1)*cmd|' /C calc'!A0", id="at-sum-dde"),
     pytest.param("+1+1", id="plus"),
@@ -136,7 +136,7 @@ def test_guard_unguard_owasp_vectors_round_trip(value):
 
 
 def test_csv_bytes_owasp_header_name_is_guarded(tmp_path):
-    # RELIABILITY.md §1.2: "a header name =cmd" is guarded too (OWASP CSV Injection)
+    # a header name "=cmd" is guarded too (OWASP CSV Injection; OWASP ASVS 5.0 1.2.10)
     data = csv_bytes(["document", "=cmd"], [["a.txt", "ok"]], bom=True)
     assert _read_back(tmp_path, data)[0] == ["document", "'=cmd"]
     assert data.startswith(BOM + b'"document","\'=cmd"\r\n')
@@ -145,7 +145,7 @@ def test_csv_bytes_owasp_header_name_is_guarded(tmp_path):
 @pytest.mark.parametrize(
     "value",
     [
-        # RELIABILITY.md §1.2: "a value containing \",=1+1" (separator break-out).  It does not
+        # OWASP CSV Injection: a value containing \",=1+1 (separator break-out).  It does not
         # start with a formula character, so the defence is RFC 4180 §2.6–2.7 quoting
         # (ASVS 5.0 1.2.10): the value stays one cell and no cell starts with "=".
         pytest.param('x",=1+1', id="quote-comma-breakout"),
@@ -163,7 +163,7 @@ def test_csv_bytes_owasp_separator_breakout_stays_one_cell(tmp_path, value):
 
 
 def test_csv_bytes_owasp_worked_example_exact_bytes():
-    # OWASP CSV Injection worked example (RELIABILITY.md §1.2): =1+2";=1+2 → "'=1+2"";=1+2"
+    # OWASP CSV Injection worked example (www-community, 'CSV Injection'): =1+2";=1+2 → "'=1+2"";=1+2"
     data = csv_bytes(["value"], [['=1+2";=1+2']], bom=False)
     assert data == b'"value"\r\n"\'=1+2"";=1+2"\r\n'
 
@@ -205,7 +205,7 @@ def test_guard_unguard_apostrophe_values_round_trip(value):
 @pytest.mark.parametrize(
     ("value", "column_guarded", "written"),
     [
-        # RELIABILITY.md §1.2: validated numbers in typed columns are written canonically
+        # validated numbers in typed columns are written canonically (common practice, no source)
         # ("-45.00" is a number, not a formula); text columns are guarded
         pytest.param("-45.00", False, "-45.00", id="typed-number-unguarded"),
         pytest.param("-45.00", True, "'-45.00", id="text-column-guarded"),

@@ -1,10 +1,12 @@
 """External checks against the Frictionless Table Schema (Data Package v2) and ``frictionless``.
 
-Sources: CHECK_SOURCES.md A1.  (a) The spec's constraint worked examples ("each must be
-invalid at data row 2 = physical row 3"), run through structurize's own validator and through
-frictionless 5.21.0, the reference validator, so both must agree on which row is bad.  (b) The
-``datapackage.json`` structurize writes must validate with frictionless, carry the user's
-schema with its ``extract`` hints, and have the v2 ``$schema`` at the root (A1 "Version gate").
+Sources: the Frictionless Table Schema specification (v2).  (a) The spec's constraint worked
+examples, each invalid at data row 2 (physical row 3), run through structurize's own
+validator and through frictionless 5.21.0, the reference validator, so both must agree on
+which row is bad.  (b) The ``datapackage.json`` structurize writes must validate with
+frictionless, carry the user's schema with its ``extract`` hints, and have the v2
+``$schema`` at the root (measured with frictionless 5.21.0: exclusiveMinimum/Maximum are
+enforced only then).
 """
 
 from __future__ import annotations
@@ -36,7 +38,7 @@ ID = {"name": "id", "type": "integer"}
 NAME = {"name": "name", "type": "string"}
 
 # (csv text, fields, field under test, frictionless error type).  Every row is
-# CHECK_SOURCES.md A1 (spec example, verified with frictionless 5.21.0).
+# a Frictionless Table Schema specification example, measured with frictionless 5.21.0.
 SPEC_EXAMPLES = [
     pytest.param(
         "id,name\n1,apple\n2,\n", [ID, {**NAME, "constraints": {"required": True}}], "name", "constraint-error", id="required"
@@ -65,7 +67,7 @@ SPEC_EXAMPLES = [
         "constraint-error",
         id="maximum",
     ),
-    # exclusiveMinimum/Maximum: only with a v2 $schema at the resource root (A1 "Version gate")
+    # exclusiveMinimum/Maximum: only with a v2 $schema at the resource root (measured with frictionless 5.21.0)
     pytest.param(
         "id,name,price\n1,apple,100\n2,orange,0\n",
         [ID, NAME, {"name": "price", "type": "integer", "constraints": {"exclusiveMinimum": 0}}],
@@ -125,7 +127,7 @@ def _frictionless_errors(tmp_path: Path, descriptor: dict, text: str) -> list[li
 
 @pytest.mark.parametrize(("text", "fields", "field", "error"), SPEC_EXAMPLES)
 def test_validate_value_table_schema_spec_examples(text, fields, field, error):
-    # CHECK_SOURCES.md A1 (spec example): data row 1 is good, data row 2 is bad
+    # Frictionless Table Schema specification example: data row 1 is good, data row 2 is bad
     statuses = _structurize_statuses({"fields": fields}, text, field)
     assert statuses[1] is ValueStatus.INVALID
     if error != "unique-error":
@@ -140,7 +142,7 @@ def test_validate_value_table_schema_spec_examples(text, fields, field, error):
 
 @pytest.mark.parametrize(("text", "fields", "field", "error"), SPEC_EXAMPLES)
 def test_frictionless_table_schema_spec_examples(tmp_path, text, fields, field, error):
-    # CHECK_SOURCES.md A1 (spec example, verified with frictionless 5.21.0): invalid at row 3
+    # Frictionless Table Schema specification example (measured with frictionless 5.21.0): invalid at row 3
     assert _frictionless_errors(tmp_path, {"fields": fields}, text) == [[3, field, error]]
 
 
@@ -162,7 +164,7 @@ def test_validate_value_agrees_with_frictionless(tmp_path, text, fields, field, 
     ("fields", "field", "good", "bad"),
     [
         # good and bad values of the spec examples, the other way round from the CSV too:
-        # the bounds themselves (CHECK_SOURCES.md A1: minimum/maximum inclusive, exclusive* not)
+        # the bounds themselves (Frictionless Table Schema specification: minimum/maximum inclusive, exclusive* not)
         pytest.param([{"name": "price", "type": "integer", "constraints": {"minimum": 100}}], "price", "100", "99", id="minimum-bound"),
         pytest.param([{"name": "price", "type": "integer", "constraints": {"maximum": 100}}], "price", "100", "101", id="maximum-bound"),
         pytest.param([{"name": "price", "type": "integer", "constraints": {"exclusiveMinimum": 0}}], "price", "1", "0", id="exclusiveMinimum-bound"),
@@ -197,7 +199,7 @@ def _values_status(out: Path) -> dict[tuple[str, str], str]:
 
 def test_datapackage_validates_with_frictionless(demo_output):
     result, out = demo_output
-    # CHECK_SOURCES.md A1: Package("datapackage.json").validate() works offline
+    # measured with frictionless 5.21.0: Package("datapackage.json").validate() works offline
     report = Package(str(out / "datapackage.json")).validate()
     task = report.tasks[0]
     assert len(report.tasks) == 1
@@ -230,10 +232,11 @@ def test_datapackage_frictionless_catches_a_broken_cell(demo_output, tmp_path):
 def test_datapackage_has_v2_schema_at_root(demo_output):
     _, out = demo_output
     descriptor = json.loads((out / "datapackage.json").read_text(encoding="utf-8"))
-    # CHECK_SOURCES.md A1 "Version gate" / B3: the v2 $schema at the datapackage root
+    # the v2 $schema at the datapackage root (Frictionless Data Package specification;
+    # measured with frictionless 5.21.0: exclusive* constraints need it there)
     assert descriptor["$schema"] == PACKAGE_PROFILE_V2
     (resource,) = descriptor["resources"]
-    # B3: a relative path next to the descriptor, CSV dialect declared
+    # Frictionless Data Package specification: a relative path next to the descriptor, CSV dialect declared
     assert resource["path"] == "table.csv"
     assert (out / resource["path"]).is_file()
     assert resource["format"] == "csv"
@@ -251,7 +254,7 @@ def test_datapackage_carries_user_schema_and_extract_hints(demo_output):
     fields = {field["name"]: field for field in schema["fields"]}
     assert list(fields) == ["document"] + [field["name"] for field in user["fields"]]
     for field in user["fields"]:
-        # CHECK_SOURCES.md A1: extra field properties (the extraction hints) are conformant
+        # Frictionless Table Schema specification: extra field properties (the extraction hints) are conformant
         assert fields[field["name"]] == field
         assert fields[field["name"]]["extract"] == field["extract"]
     assert schema["extract"] == user["extract"]
@@ -259,7 +262,7 @@ def test_datapackage_carries_user_schema_and_extract_hints(demo_output):
 
 
 def test_datapackage_extract_hints_survive_frictionless_round_trip(demo_output):
-    # CHECK_SOURCES.md A1: custom field keys are preserved by Schema.to_descriptor()
+    # measured with frictionless 5.21.0: custom field keys are preserved by Schema.to_descriptor()
     _, out = demo_output
     user = yaml.safe_load(DEMO_SCHEMA.read_text(encoding="utf-8"))
     fields = Package(str(out / "datapackage.json")).resources[0].schema.to_descriptor()["fields"]

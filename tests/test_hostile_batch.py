@@ -1,7 +1,7 @@
 """Acceptance check of the "broken and hostile input" work: bad documents cost only themselves.
 
-RELIABILITY.md §3 E0 ("a document-level failure never becomes a batch failure; nothing
-else is lost") and §4 FI-10 / FI-11 (worker crash, per-document timeout):
+Catalogue E0 (a document-level failure never becomes a batch failure; nothing else is
+lost) and FI-10 / FI-11 (worker crash, per-document timeout), in tests/CATALOGUE.md:
 
 * a batch of the demo documents plus an empty file, an image-only PDF with no text layer
   and a truncated .docx gives exactly the same values for the good documents as the batch

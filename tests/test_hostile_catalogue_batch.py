@@ -1,8 +1,8 @@
 """The bad-input catalogue in one batch: every hostile document costs only itself.
 
-Source: RELIABILITY.md §3 catalogue (the project's reference: /work/shared/reference/RELIABILITY.md),
-rule E0: "the document is recorded ... with reason_code; the batch continues; nothing else is
-lost: other documents' values ... and the previous output files are untouched".
+Source: the bad-input catalogue in tests/CATALOGUE.md, rule E0: the document is recorded with
+its reason; the batch continues; nothing else is lost: other documents' values and the
+previous output files are untouched.
 
 The single-document tests (test_hostile_pdf.py, _docx, _email, _text, _files, _schema,
 test_store.py) assert each entry's status or message.  This module adds the second half:
@@ -357,7 +357,7 @@ def tree(folder: Path, skip: tuple[str, ...]) -> set[str]:
 
 
 class Writer:
-    """F4: a background thread appending to a file while the batch runs (RELIABILITY.md F4 "Gen")."""
+    """F4: a background thread appending to a file while the batch runs (catalogue F4, tests/CATALOGUE.md)."""
 
     def __init__(self, path: Path) -> None:
         self.path, self.stop = path, threading.Event()

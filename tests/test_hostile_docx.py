@@ -1,6 +1,7 @@
-"""Broken and hostile .docx files: catalogue D1–D10 of RELIABILITY.md §3.2.
+"""Broken and hostile .docx files: catalogue D1–D10 (tests/CATALOGUE.md).
 
-Inputs are built here from a python-docx-generated seed (as §1.5 measured them), rewritten
+Inputs are built here from a python-docx-generated seed (as measured with python-docx 1.2.0
+and lxml 6.1.3), rewritten
 with the stdlib ``zipfile``.  The container checks run before python-docx opens the file;
 the tests prove it by making python-docx refuse to run.  Reason codes:
 

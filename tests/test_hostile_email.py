@@ -1,4 +1,4 @@
-"""Broken and hostile email messages: catalogue E1–E5 of RELIABILITY.md §3.3 (and E9).
+"""Broken and hostile email messages: catalogue E1–E5, E9, E10 and E11 (tests/CATALOGUE.md).
 
 Every message is written here as bytes.  Reason codes and warnings:
 

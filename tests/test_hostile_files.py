@@ -1,4 +1,5 @@
-"""File-system hazards in the input folder and an unwritable output: RELIABILITY.md §3.5, §3.7.
+"""File-system hazards in the input folder and an unwritable output: catalogue F1, F2, F4, F5
+and C2 (tests/CATALOGUE.md).
 
 F1 symlinks out of the folder and loops, F2 FIFOs and other non-regular files, F4 files that
 change while they are read, F5 hostile file names, C2 an output folder that cannot be

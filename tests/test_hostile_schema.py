@@ -1,4 +1,5 @@
-"""Hostile and broken schema files: RELIABILITY.md §3.6 (S1–S6), §3.7 C3, §5 limits.
+"""Hostile and broken schema files: catalogue S1–S6 and C3 (tests/CATALOGUE.md), and the
+schema-file limits (1,000,000 bytes, 100 aliases, 100 levels of nesting).
 
 Every input is generated here.  Each row names its catalogue ID.  Expectations: the file is
 refused with one located line (``schema error: <file>: <where>: <what>``) and nothing is
@@ -434,7 +435,8 @@ KEYS = st.sampled_from(sorted({*SCHEMA_KEYS, *FIELD_KEYS, *CONSTRAINT_KEYS, *FIE
 
 
 class Huge(int):
-    """An int over Python's 4,300-digit ``str()`` limit (§1.9) that hypothesis can still print."""
+    """An int over Python's 4,300-digit ``str()`` limit (Python docs, integer string conversion length limitation;
+    CVE-2020-10735) that hypothesis can still print."""
 
     __str__ = int.__repr__  # str() raises ValueError, as for the plain int
 

@@ -1,4 +1,4 @@
-"""Hostile text and values: catalogue T1, T5, T6, T9, T10, T11 of RELIABILITY.md §3.4, and the
+"""Hostile text and values: catalogue T1, T5, T6, T9, T10, T11 (tests/CATALOGUE.md), and the
 regression inputs in ``tests/regressions/`` (all formats).
 
 =====  ===========================================================================

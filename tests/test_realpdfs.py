@@ -1,4 +1,4 @@
-"""The 29 real malformed PDFs of ``../shared/realpdfs`` (RELIABILITY.md §2, "real #N").
+"""The 29 real malformed PDFs of ``../shared/realpdfs`` ("real #N" of the folder's manifest).
 
 All of them go through ONE batch of ``structurize extract`` (a subprocess, worker processes
 with the default time and memory limits), and every file must get the status the

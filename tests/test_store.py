@@ -3,7 +3,7 @@
 This module also holds the shared helpers of the store tests (``tests/test_store_faults.py``
 and ``tests/test_incremental.py`` import them): invented input documents, a runner for the
 ``structurize`` command as a subprocess, output snapshots, and ``INV``, the invariant check
-of RELIABILITY.md §4 that every fault-injection test ends with.
+that every fault-injection test ends with (tests/CATALOGUE.md, "INV").
 """
 
 from __future__ import annotations
@@ -246,7 +246,7 @@ def tmp_files(out_dir: Path) -> list[str]:
     return sorted(path.name for path in out_dir.glob("*.tmp")) if out_dir.is_dir() else []
 
 
-# --- the invariant check (RELIABILITY.md §4) ------------------------------------------------
+# --- the invariant check (INV in tests/CATALOGUE.md) ----------------------------------------
 
 PRIMARY_KEYS = {
     "documents": ["sha256"],
@@ -264,7 +264,7 @@ def connect(store_path: Path) -> sqlite3.Connection:
 
 def INV(store_path: Path, out_dir: Path | None, expected_documents: Iterable[str] | None = None, *,
         schema_path: Path = OFFER_SCHEMA, after_success: bool = False, tmp_ok: bool = False) -> dict[str, int]:
-    """The invariant every fault-injection test ends with (RELIABILITY.md §4).
+    """The invariant every fault-injection test ends with (INV in tests/CATALOGUE.md).
 
     * ``integrity_check`` = ok, ``foreign_key_check`` empty;
     * every document is complete (its ``documents`` row, one ``field_values`` row per schema

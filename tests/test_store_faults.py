@@ -1,4 +1,4 @@
-"""Fault injection on the store-backed ``structurize extract`` (RELIABILITY.md §4).
+"""Fault injection on the store-backed ``structurize extract`` (catalogue FI, tests/CATALOGUE.md).
 
 Every test injects a fault into a run of the command in a process of its own (kill -9 at a
 random time or at a named point, a worker crash, a second run, a full disk, an output folder
@@ -54,7 +54,7 @@ from test_store import (
 )
 
 SEED = 20261202  # FI-1 (a): fixed in CI; a failing seed is kept here as a regression case
-RANDOM_KILLS = 50  # RELIABILITY.md §4 FI-1 (a): 50 kills (over 60 documents, not 300, to fit CI time)
+RANDOM_KILLS = 50  # catalogue FI-1 (a) (tests/CATALOGUE.md): 50 kills over 60 documents, to fit CI time
 
 
 def _reference(base: Path, count: int) -> tuple[Path, list[str], dict[str, bytes], float]:

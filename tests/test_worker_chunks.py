@@ -6,8 +6,8 @@ order the file system lists the files.  The five copies of one document hang, cr
 run out of memory or raise, so at least two of them sit in a chunk of several documents.
 The parent blames a document when it knows which one the worker was on (a hang), and
 otherwise runs every document of the chunk again alone, so that only the culprits fail.
-Every other row equals the row of a run without the fault.  (RELIABILITY.md §4 FI-10 and
-FI-11, with chunks.)
+Every other row equals the row of a run without the fault.  (Catalogue FI-10 and FI-11
+(tests/CATALOGUE.md), with chunks.)
 """
 
 from __future__ import annotations

@@ -30,7 +30,8 @@ READERS: Registry[Reader] = Registry("reader", "structurize.readers")
 EMPTY_SHA256 = hashlib.sha256(b"").hexdigest()
 #: file suffix (lower case, with the dot) → reader name.
 SUFFIXES: dict[str, str] = {}
-#: Notes of the failures a reader does not classify itself (never empty: RELIABILITY.md §0.6).
+#: Notes of the failures a reader does not classify itself (never empty, never the document's
+#: content: OWASP Logging Cheat Sheet, "data to exclude").
 MEMORY_NOTE = "reading the document needed more memory than the limit"
 NESTED_NOTE = "the document's structure is nested too deeply to read"
 

@@ -1,8 +1,9 @@
 """Word documents (.docx) through python-docx: paragraphs and tables in document order.
 
-The container is checked before python-docx opens it (RELIABILITY.md §1.5, catalogue
-D1–D10), because the library does not bound what it inflates and a future python-docx may
-lift libxml2's limits (``huge_tree``):
+The container is checked before python-docx opens it (Python ``zipfile`` documentation,
+"Decompression pitfalls"; python-docx ``oxml/parser.py`` on its main branch sets
+``huge_tree=True``; catalogue D1–D10 in tests/CATALOGUE.md), because the library does not
+bound what it inflates and a future python-docx may lift libxml2's limits (``huge_tree``):
 
 * OLE2 magic: an OOXML package encrypted with a password (an OLE2 compound file holding
   the streams ``EncryptionInfo`` and ``EncryptedPackage``, MS-OFFCRYPTO §2.3.4) →

@@ -9,7 +9,9 @@ pages carry no characters gets the status ``no_text_layer`` (images only) or
 ``options.ocr`` and Tesseract installed, pages without characters are read by OCR instead
 (:mod:`structurize.readers.ocr`; warning ``ocr``).
 
-Before and while a file is parsed (RELIABILITY.md §1.6, catalogue P1–P11):
+Before and while a file is parsed (pdfminer.six issues #532, #879, #1113 and pdfplumber #193 on
+hangs, memory and recursion; measured with pdfplumber 0.11.10 / pdfminer.six 20260107;
+catalogue P1–P11 in tests/CATALOGUE.md):
 
 * a zero-byte file is ``failed: empty_file`` and a file without the ``%PDF-`` signature in
   its first KiB is ``failed: wrong_type`` ("looks like html"), before pdfminer sees it;
@@ -28,7 +30,9 @@ Before and while a file is parsed (RELIABILITY.md §1.6, catalogue P1–P11):
 * ``RecursionError`` (deeply nested objects) is ``failed: pdf_structure``; an error on one
   page of several makes the document ``partial: page_unreadable``.
 
-A feature that fails while the text is read fails only that feature (RELIABILITY.md §0.4):
+A feature that fails while the text is read fails only that feature (measured with pdfplumber
+0.11.10: the annotations of real #14 and #23 of the realpdfs folder's manifest raise while
+their text reads fine):
 the document is ``partial`` with a warning of the same name as its reason —
 ``image_only_pages`` (some pages are images only and were not read by OCR: their text is
 missing), ``annots_unreadable`` (the page's annotations could not be read, e.g. they refer
@@ -68,7 +72,7 @@ from .builder import TextBuilder
 #: A gap wider than this many average character widths separates two "columns" of a line.
 WIDE_GAP = 2.5
 LINE_TOLERANCE = 3.0
-#: Largest inflated size of one Flate stream (RELIABILITY.md §5: 100 MB).  A ``Limits``
+#: Largest inflated size of one Flate stream (100 MB; common practice, no source).  A ``Limits``
 #: field ``pdf_stream_bytes``, when there is one, wins.
 STREAM_BYTES = 100 * 1024 * 1024
 #: The ``%PDF-`` signature may follow some junk, within the first KiB (ISO 32000 §7.5.2 note).
