@@ -20,7 +20,7 @@ from . import dates as datelib
 from .layout import LabelPair, find_pairs
 from .money import MoneyMention, find_money
 from .ner import Entity
-from .text import PhraseSet, fold, leading_name, norm, normalise_name
+from .text import PhraseSet, fold, is_partial_name, leading_name, name_core, norm, normalise_name
 from .vocab import Vocabulary, vocabulary_for
 
 EXCLUDED_REGIONS = ("quoted", "forwarded", "attachment")
@@ -58,6 +58,7 @@ _WRITTEN_BY = re.compile(
     r"\b(?:written|prepared|recorded|compiled|completed|drafted|notes taken|minuted|filled in)\s+by\s*:?\s*|\bauthor\s*:\s*",
     re.IGNORECASE,
 )
+_COURTESY = re.compile(r"^(?:mr|mrs|ms|miss|mx|dr|prof)\.?$", re.IGNORECASE)
 _FIRST_PERSON = re.compile(r"^(?:i|me|myself|i am|i'm|i've|i will)$", re.IGNORECASE)
 
 
@@ -420,7 +421,7 @@ class Analysis:
 
     @cached_property
     def known_names(self) -> list[str]:
-        """Full names (two tokens or more) seen anywhere: NER, labelled values, capitalised runs."""
+        """Full names (a given name and a surname) seen anywhere: NER, labelled values, capitalised runs."""
         names = [p.name for p in self.ner_people]
         for pair in self.pairs:
             found = leading_name(self.text[pair.value_span.start : pair.value_span.end])
@@ -430,13 +431,18 @@ class Analysis:
             found = leading_name(self.text[match.start() : match.start() + 80])
             if found and len(found[2].split()) >= 2:
                 names.append(found[2])
-        return [name for name in dict.fromkeys(names) if len(name.split()) >= 2 and not self.is_listed_value(name)]
+        return [name for name in dict.fromkeys(names) if not is_partial_name(name) and not self.is_listed_value(name)]
 
     def complete_name(self, name: str) -> str | None:
-        """Expand a short name ("Carlos", "Ms. Rahman", "F. MacAllister") to the full one."""
-        tokens = fold(name).split()
-        if len(tokens) >= 2 and not any(len(t.rstrip(".")) == 1 for t in tokens):
+        """Expand a short name ("Carlos", "Ms. Rahman", "F. MacAllister", "De Luca") to the
+        full one, when exactly one full name in the document fits it."""
+        name = " ".join(word for word in name.split() if not _COURTESY.match(word))
+        if not name:
+            return None
+        if not is_partial_name(name):
             return name
+        tokens = fold(name).split()
+        core = name_core(fold(name))
         initials = name.strip(".").upper() if re.fullmatch(r"[A-Z]{2,3}\.?", name.strip()) else None
         matches = []
         for full in self.known_names:
@@ -445,6 +451,8 @@ class Analysis:
                 matches.append(full)
             elif len(tokens) == 1 and tokens[0] in (full_tokens[0], full_tokens[-1]):
                 matches.append(full)
+            elif len(core) == 1 and len(tokens) > 1 and full_tokens[-len(tokens) :] == tokens and len(full_tokens) > len(tokens):
+                matches.append(full)  # a surname with its particles: "De Luca" in "Stefano De Luca"
             elif len(tokens) >= 2 and tokens[-1] == full_tokens[-1] and full_tokens[0].startswith(tokens[0].rstrip(".")):
                 matches.append(full)
         unique = list(dict.fromkeys(matches))

@@ -266,8 +266,7 @@ def _prose_readings(an: Analysis, spec: FieldSpec, start: int, end: int, limit: 
             return
         for person in an.ner_people:
             if end <= person.start < limit:
-                full = an.complete_name(person.name) or person.name
-                yield Reading(full, person.start, person.end, 0.8, evidence=("ner PERSON",)), person.start - end
+                yield kinds.ner_person_reading(an, person), person.start - end
                 return
         return
     if kind == "job_title":
@@ -379,7 +378,7 @@ def role_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             people.append((author, 0.32, "author/signer"))
     for person, score, role in people:
         name = an.complete_name(person.name) or person.name
-        flags = frozenset() if len(name.split()) > 1 else frozenset({"partial_name"})
+        flags = kinds.person_flags(name)  # "Dear Mr. De Luca" with no full name anywhere: a surname alone
         if flags:
             score = min(score, 0.5)
         reading = Reading(name, person.start, person.end, 1.0, flags)

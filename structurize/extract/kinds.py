@@ -12,14 +12,15 @@ import re
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from decimal import Decimal
+from functools import lru_cache
 from typing import Any
 
 from .. import patterns
 from ..schema.model import FieldSpec
 from ..types import Alternative, Span
-from .analysis import Analysis
+from .analysis import Analysis, Person
 from .money import period_in
-from .text import TITLE_HEADS, fold, leading_name, normalise_name
+from .text import TITLE_HEADS, fold, is_partial_name, leading_name, normalise_name
 
 _STATED_MISSING = re.compile(
     r"^\W*(?:n/?a\b|none\b|nil\b|tbd\b|tbc\b|t\.b\.[cd]\.|pending\b|unknown\b|undecided\b|awaiting\b|"
@@ -28,8 +29,6 @@ _STATED_MISSING = re.compile(
     r"\?+(?:\s|$)|[-–—]+\s*$|_{3,}|to\s+follow\b|see\s+below\b)",
     re.IGNORECASE,
 )
-#: A surname in capitals, a comma, then the given name(s): "REED, Samira".
-_SURNAME_FIRST = re.compile(r"[A-ZÀ-ÖØ-Þ][A-ZÀ-ÖØ-Þ'’-]+,\s*[A-ZÀ-ÖØ-Þ][a-zß-öø-ÿ'’-]+(?:[ -][A-ZÀ-ÖØ-Þ][a-zß-öø-ÿ'’-]+)?")
 _PENDING = re.compile(
     r"\b(?:pending|awaiting|not yet (?:approved|signed|given|received)|to be (?:signed|approved|confirmed)|tbc|tbd|outstanding)\b",
     re.IGNORECASE,
@@ -92,11 +91,7 @@ def read_person(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Rea
     if an.first_person(segment.strip(" .,;")[:6].split(" ")[0] if segment.strip() else ""):
         out.append(Reading(None, start, start + lead + 1, 0.8, frozenset({"first_person"})))
         return out
-    inverted = _SURNAME_FIRST.match(segment, lead)
-    if inverted is not None:  # "REED, Samira" → "Samira Reed"
-        found = (start + inverted.start(), start + inverted.end(), normalise_name(inverted.group()))
-    else:
-        found = leading_name(segment[lead:], start + lead)
+    found = leading_name(segment[lead:], start + lead)  # also "REED, Samira" → "Samira Reed"
     reading = _person_reading(an, found) if found is not None else None
     if reading is not None:
         if _PENDING.search(an.text[reading.end : end]):
@@ -107,8 +102,7 @@ def read_person(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Rea
         out.append(reading)
     for person in an.ner_people:
         if start <= person.start < end and (found is None or person.start >= found[1]):
-            full = an.complete_name(person.name) or person.name
-            out.append(Reading(full, person.start, person.end, 0.8, frozenset(), evidence=("ner PERSON",)))
+            out.append(ner_person_reading(an, person))
     if not out:
         missing = stated_missing(an, start, end)
         if missing is not None:
@@ -128,7 +122,7 @@ def _person_reading(an: Analysis, found: tuple[int, int, str]) -> Reading | None
     flags: set[str] = set()
     evidence = []
     quality = 0.9
-    if len(name.split()) < 2 or any(len(token.rstrip(".")) == 1 for token in name.split()):
+    if is_partial_name(name):  # "Walsh", "Mr. De Luca", "E. Walsh": completed from the document if possible
         full = an.complete_name(name)
         if full is None:
             flags.add("partial_name")
@@ -143,6 +137,20 @@ def _person_reading(an: Analysis, found: tuple[int, int, str]) -> Reading | None
         quality *= 0.8
         evidence.append("ner calls it a place")
     return Reading(name, start, end, quality, frozenset(flags), evidence=tuple(evidence))
+
+
+def ner_person_reading(an: Analysis, person: Person) -> Reading:
+    """A PERSON entity, completed to a full name when the document holds one; a surname or
+    given name alone stays flagged ``partial_name``."""
+    full = an.complete_name(person.name) or person.name
+    if is_partial_name(full):
+        return Reading(full, person.start, person.end, 0.6, frozenset({"partial_name"}), evidence=("ner PERSON", "no full name found"))
+    return Reading(full, person.start, person.end, 0.8, frozenset(), evidence=("ner PERSON",))
+
+
+def person_flags(name: str) -> frozenset[str]:
+    """``partial_name`` for a name that is not a full name ("De Luca", "E. Walsh")."""
+    return frozenset({"partial_name"}) if is_partial_name(name) else frozenset()
 
 
 def read_entity(label: str) -> Reader:
@@ -244,6 +252,10 @@ def read_vocab(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Read
         if kind == "flag":
             value = value == "true"
         out.append(Reading(value, mention.start, mention.end, quality, frozenset(flags), evidence=(f"variant {mention.variant!r}",)))
+    if not out and kind == "choice":
+        part = _distinctive_reading(an, vocabulary, start, end)
+        if part is not None:
+            out.append(part)
     if not out:
         segment = an.text[start:end]
         words = segment.strip(" *_.").split()
@@ -254,9 +266,8 @@ def read_vocab(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Read
                 misses = vocabulary.near_miss(" ".join(words[:2])) or vocabulary.near_miss(words[0])
             if misses:
                 value, variant, score = misses[0]
-                alternatives = tuple(
-                    Alternative(v if kind != "flag" else v == "true", s) for v, _, s in misses[1:] if v != value
-                )
+                # every listed value within reach is an alternative a reviewer may pick
+                alternatives = tuple(Alternative(v if kind != "flag" else v == "true", round(s, 3)) for v, _, s in misses[1:])
                 offset = start + segment.find(words[0])
                 final: Any = value if kind != "flag" else value == "true"
                 out.append(
@@ -266,26 +277,53 @@ def read_vocab(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Read
     return out or _missing_list(an, start, end)
 
 
+#: Where a labelled value ends: "Hilltop (from May)", "Hilltop, east wing", "Hilltop – temporary".
+_VALUE_END = re.compile(r"[,;(|\n]|\s[-–—]\s")
+
+
+def _distinctive_reading(an: Analysis, vocabulary: Any, start: int, end: int) -> Reading | None:
+    """A value written as the distinctive part of one listed value ("Hilltop" for "Hilltop
+    Branch"): that value, at a slightly lower quality; a part two values share ("Hilltop"
+    for "Hilltop Branch" and "Hilltop Depot") goes to review with the others as alternatives."""
+    segment = an.text[start:end]
+    piece = _VALUE_END.split(segment, maxsplit=1)[0]
+    stripped = piece.strip(" *_.")
+    if not stripped or len(stripped.split()) > 4:
+        return None
+    values = vocabulary.by_distinctive_part(stripped)
+    if not values:
+        return None
+    offset = start + segment.find(stripped)
+    evidence = (f"distinctive part of {values[0]!r}",)
+    if len(values) == 1:
+        return Reading(values[0], offset, offset + len(stripped), 0.9, evidence=evidence)
+    alternatives = tuple(Alternative(value, 0.5) for value in values[1:])
+    return Reading(values[0], offset, offset + len(stripped), 0.5, frozenset({"near_miss"}), alternatives=alternatives,
+                   evidence=(f"shared by {len(values)} listed values",))
+
+
 # --- identifiers, emails, phones, text ----------------------------------------------------
 
 
 def read_identifier(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:
     pattern = spec.hints.pattern or spec.pattern
-    out = []
     if pattern is None:
         return read_text(an, spec, start, end)
     budget = patterns.budget_for(an)
-    for match in _COMPOUND.finditer(an.text, start, end):
-        raw = match.group()
-        try:
-            value = _identifier_value(raw, pattern, budget)
-        except patterns.PatternTimeout:
-            # a catastrophic user pattern (catalogue S3): no candidate from it in this
-            # document; the timeout is recorded for the document's ``pattern_timeout`` warning
-            return _missing_list(an, start, end)
-        if value is not None:
-            flags = frozenset({"separators_normalised"}) if value != raw else frozenset()
-            out.append(Reading(value, match.start(), match.end(), 1.0, flags))
+    shape = id_shape(pattern.pattern)
+    try:
+        out = _shaped_identifiers(an.text, start, end, pattern, shape, budget) if shape is not None else []
+        if shape is None:
+            for match in _COMPOUND.finditer(an.text, start, end):
+                raw = match.group()
+                value = _identifier_value(raw, pattern, budget)
+                if value is not None:
+                    flags = frozenset({"separators_normalised"}) if value != raw else frozenset()
+                    out.append(Reading(value, match.start(), match.end(), 1.0, flags))
+    except patterns.PatternTimeout:
+        # a catastrophic user pattern (catalogue S3): no candidate from it in this
+        # document; the timeout is recorded for the document's ``pattern_timeout`` warning
+        return _missing_list(an, start, end)
     return out or _missing_list(an, start, end)
 
 
@@ -304,6 +342,202 @@ def _identifier_value(raw: str, pattern: patterns.UserPattern, budget: patterns.
     if dashed != raw and fullmatch(pattern, dashed):
         return dashed
     return None
+
+
+# An identifier pattern made of literal parts, character classes and separators ("LB-[0-9]{4}",
+# "TV[0-9]{5}", "[A-Z]{2}[0-9]{4,5}") is read in the forms people write it in: with a space,
+# a hyphen, an en or em dash (with or without spaces), a slash, a dot or nothing between
+# its parts, and in either letter case; the value is then written in the pattern's own form.
+_SEPARATOR_CHARS = "-/. _"
+_LOOSE_SEPARATOR = r"(?:[ \t\u00a0]?[-‐‑‒–—―/.][ \t\u00a0]?|[ \t\u00a0])"
+_DASH_CHARS = "-‐‑‒–—―/."
+
+
+@dataclass(frozen=True)
+class IdPart:
+    kind: str  #: ``literal``, ``class`` or ``separator``
+    source: str  #: regex source of a class with its quantifier; the text of a literal or separator
+    letters: bool = False  #: can hold letters
+    digits: bool = False  #: can hold digits
+    case: str = ""  #: ``upper`` / ``lower`` for a class of capitals / small letters only
+    fixed: bool = True  #: holds a fixed number of characters
+
+
+@dataclass(frozen=True)
+class IdShape:
+    parts: tuple[IdPart, ...]
+    loose: re.Pattern[str]
+
+
+def _parse_id_pattern(source: str) -> list[tuple[str, str, str]] | None:
+    r"""``source`` as ``(kind, text, quantifier)`` atoms, or None when it holds anything but
+    literal characters, classes, ``\d``/``\w``/``\s`` and quantifiers (groups, alternation ...)."""
+    if source.startswith("^"):
+        source = source[1:]
+    if source.endswith("$") and not source.endswith("\\$"):
+        source = source[:-1]
+    atoms: list[tuple[str, str, str]] = []
+    index = 0
+    while index < len(source):
+        ch = source[index]
+        if ch == "[":
+            close = index + 1
+            if close < len(source) and source[close] == "^":
+                return None
+            if close < len(source) and source[close] == "]":
+                close += 1
+            while close < len(source) and source[close] != "]":
+                close += 2 if source[close] == "\\" else 1
+            if close >= len(source):
+                return None
+            atoms.append(("class", source[index : close + 1], ""))
+            index = close + 1
+        elif ch == "\\":
+            if index + 1 >= len(source):
+                return None
+            nxt = source[index + 1]
+            if nxt in "dw":
+                atoms.append(("class", "\\" + nxt, ""))
+            elif nxt == "s":
+                atoms.append(("char", " ", ""))
+            elif not nxt.isalnum():
+                atoms.append(("char", nxt, ""))
+            else:
+                return None
+            index += 2
+        elif ch in "{*+?":
+            if not atoms or atoms[-1][2]:
+                return None
+            if ch == "{":
+                close = source.find("}", index)
+                if close < 0 or not re.fullmatch(r"\{\d+(?:,\d*)?\}", source[index : close + 1]):
+                    return None
+                quantifier = source[index : close + 1]
+                index = close + 1
+            else:
+                quantifier = ch
+                index += 1
+            kind, text, _ = atoms[-1]
+            atoms[-1] = (kind, text, quantifier)
+        elif ch in "()|.^$":
+            return None
+        else:
+            atoms.append(("char", ch, ""))
+            index += 1
+    return atoms
+
+
+@lru_cache(maxsize=256)
+def id_shape(source: str) -> IdShape | None:
+    """The parts of an identifier pattern and a loose regex finding its written forms, or
+    None when the pattern's literal parts and separators cannot be read off it."""
+    atoms = _parse_id_pattern(source)
+    if not atoms:
+        return None
+    parts: list[IdPart] = []
+    for kind, text, quantifier in atoms:
+        if kind == "char" and text in _SEPARATOR_CHARS and quantifier in ("", "?"):
+            parts.append(IdPart("separator", text))  # "-" and "-?" alike: written as "-"
+        elif kind == "char" and not quantifier:
+            if parts and parts[-1].kind == "literal":
+                last = parts[-1]
+                parts[-1] = IdPart("literal", last.source + text, last.letters or text.isalpha(), last.digits or text.isdigit())
+            else:
+                parts.append(IdPart("literal", text, text.isalpha(), text.isdigit()))
+        else:
+            body = re.escape(text) if kind == "char" else text
+            if quantifier in ("+", "*"):
+                quantifier = "{1,40}" if quantifier == "+" else "{0,40}"  # identifiers are short
+            try:
+                compiled = re.compile(body)
+            except re.error:
+                return None
+            upper, lower, digit = (bool(compiled.fullmatch(c)) for c in ("A", "a", "0"))
+            case = "upper" if upper and not lower else "lower" if lower and not upper else ""
+            fixed = not quantifier or bool(re.fullmatch(r"\{\d+\}", quantifier))
+            parts.append(IdPart("class", body + quantifier, upper or lower, digit, case, fixed=fixed))
+    if not any(part.kind != "separator" for part in parts) or len(parts) > 12:
+        return None
+    if sum(1 for part in parts if not part.fixed) > 1:
+        return None  # two parts of varying length could backtrack against each other: read as written only
+    pieces: list[str] = []
+    previous: IdPart | None = None
+    for index, part in enumerate(parts):
+        if part.kind == "separator":
+            pieces.append(_LOOSE_SEPARATOR + "?")
+            previous = part
+            continue
+        if previous is not None and previous.kind != "separator" and _kinds_differ(previous, part):
+            pieces.append(_LOOSE_SEPARATOR + "?")  # "TV 30992" for "TV[0-9]{5}"
+        if part.kind == "literal":
+            pieces.append(f"(?P<p{index}>(?i:{re.escape(part.source)}))")
+        else:
+            pieces.append(f"(?P<p{index}>(?i:{part.source}))" if part.case else f"(?P<p{index}>{part.source})")
+        previous = part
+    first = next(part for part in parts if part.kind != "separator")
+    last = next(part for part in reversed(parts) if part.kind != "separator")
+    dashes = re.escape(_DASH_CHARS)
+    left = rf"(?<!\w)(?<!\w[{dashes}])" + (r"(?<!\d[ \t\u00a0])" if first.digits else "")
+    right = rf"(?!\w)(?![{dashes}]\w)" + (r"(?![ \t\u00a0]\d)" if last.digits else "")
+    try:
+        loose = re.compile(left + "".join(pieces) + right)
+    except re.error:
+        return None
+    return IdShape(tuple(parts), loose)
+
+
+def _kinds_differ(a: IdPart, b: IdPart) -> bool:
+    """Two neighbouring parts that a separator may be written between: letters, then digits."""
+    return (a.letters and not a.digits and b.digits and not b.letters) or (a.digits and not a.letters and b.letters and not b.digits)
+
+
+def _shaped_identifiers(
+    text: str, start: int, end: int, pattern: patterns.UserPattern, shape: IdShape, budget: patterns.Budget | None
+) -> list[Reading]:
+    """Identifiers in ``text[start:end]`` written in any of the loose forms, in the pattern's own form."""
+    fullmatch = budget.fullmatch if budget is not None else (lambda p, value: p.fullmatch(value))
+    neighbours = _neighbours(shape)
+    out = []
+    for match in shape.loose.finditer(text, start, end):
+        raw = match.group()
+        if fullmatch(pattern, raw):
+            out.append(Reading(raw, match.start(), match.end(), 1.0))
+            continue
+        gaps = {pair: text[match.end(f"p{pair[0]}") : match.start(f"p{pair[1]}")] for pair in neighbours}
+        spaced = {index for pair, gap in gaps.items() if gap and not gap.strip() for index in pair}
+        written: list[str] = []
+        recased = False
+        word_and_number = False
+        for index, part in enumerate(shape.parts):
+            if part.kind == "separator":
+                written.append(part.source)
+                continue
+            piece = match.group(f"p{index}")
+            if part.kind == "literal":
+                recased |= piece != part.source
+                written.append(part.source)
+                continue
+            cased = piece.upper() if part.case == "upper" else piece.lower() if part.case == "lower" else piece
+            if cased != piece:
+                recased = True
+                word_and_number |= index in spaced  # "no 40211": a word and a number, not "NO40211"
+            written.append(cased)
+        value = "".join(written)
+        if word_and_number or (recased and not any(ch.isdigit() for ch in value)):
+            continue  # a word in other case ("ideas") is not an identifier either
+        if not fullmatch(pattern, value):
+            continue
+        # two classes set apart by a space only ("NY 10001" for "[A-Z]{2}[0-9]{5}") may be two things
+        loose_join = any(j == i + 1 and shape.parts[i].kind == shape.parts[j].kind == "class" and pair_gap and not pair_gap.strip()
+                         for (i, j), pair_gap in gaps.items())
+        out.append(Reading(value, match.start(), match.end(), 0.9 if loose_join else 1.0, frozenset({"separators_normalised"})))
+    return out
+
+
+def _neighbours(shape: IdShape) -> list[tuple[int, int]]:
+    """Index pairs of neighbouring non-separator parts."""
+    indices = [i for i, part in enumerate(shape.parts) if part.kind != "separator"]
+    return list(zip(indices, indices[1:]))
 
 
 def read_email(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Reading]:

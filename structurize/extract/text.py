@@ -6,6 +6,7 @@ import re
 import unicodedata
 from collections.abc import Iterator
 from functools import lru_cache
+from itertools import islice
 
 from rapidfuzz.distance import Levenshtein
 
@@ -256,6 +257,9 @@ _NOT_NAME = {
     "hiring", "reporting", "reports", "business", "talent", "acquisition", "administrator",
     "general", "gm", "program", "project", "service", "services", "customer", "quality",
     "warehouse", "maintenance", "transport", "transportation", "logistics", "management",
+    "all", "everyone", "colleagues", "sir", "madam", "confidential", "urgent", "private", "draft",
+    "welcome", "congratulations", "important", "notice", "reminder", "attention", "attn", "post", "item",
+    "detail", "details",
 }
 #: Words that end the name of a place or an organisation ("Lantern Bay Plant", "Elm Ridge DC").
 _PLACE_WORDS = frozenset(
@@ -279,15 +283,85 @@ def _name_token(token: str) -> bool:
     return all(ch.isalpha() or ch in "'’-." for ch in core)
 
 
+def _capitals(word: str) -> bool:
+    """A word written in capitals ("WALSH", "O'NEILL-MCCANN"), at least two letters."""
+    letters = [ch for ch in word if ch.isalpha()]
+    return len(letters) > 1 and all(ch.isupper() for ch in letters)
+
+
+def _inverted_name(text: str) -> tuple[int, int] | None:
+    """Where ``text`` starts with a surname-first name, ``(start, end)`` of it.
+
+    "WALSH, Eamon", "VAN DER BERG, Anke", "de la Cruz, María José": a surname in capitals,
+    or one led by a particle in lower case, then a comma and one to three given names or
+    initials.  A surname in mixed case ("Walsh, Eamon", "De Luca, Head of Heritage") is
+    left alone: in running text that is as often a list, an address or a job title.
+    """
+    tokens = [(m.start(), m.end(), m.group()) for m in islice(_TOKEN.finditer(text), 9)]  # 3 particles, 2 surnames, 3 given names
+    index = 0
+    if not tokens or text[: tokens[0][0]].strip():
+        return None
+    particles = 0
+    while index < len(tokens) and tokens[index][2].lower() in _PARTICLES and particles < 3:
+        particles += 1
+        index += 1
+    core: list[str] = []
+    while index < len(tokens) and len(core) < 2:
+        word = tokens[index][2]
+        if not _name_token(word) or word.lower().strip(".") in _NOT_NAME or _INITIAL.match(word):
+            return None
+        if index and text[tokens[index - 1][1] : tokens[index][0]].strip():
+            return None  # punctuation inside the surname
+        core.append(word)
+        index += 1
+        if index < len(tokens) and "," in text[tokens[index - 1][1] : tokens[index][0]]:
+            break
+    if not core or index >= len(tokens):
+        return None
+    comma = text[tokens[index - 1][1] : tokens[index][0]]
+    if comma.strip() != "," or "\n" in comma:
+        return None
+    if not all(_capitals(word) for word in core) and not (particles and tokens[0][2][:1].islower()):
+        return None  # "Di Marco, Meter Reader": a surname, then a job title
+    given_start = index
+    while index < len(tokens) and index - given_start < 3:
+        word = tokens[index][2]
+        gap = text[tokens[index - 1][1] : tokens[index][0]]
+        if index > given_start and (gap.strip() or gap.count(" ") > 1 or "\n" in gap):
+            break
+        lowered = word.lower().strip(".")
+        if _INITIAL.match(word):
+            index += 1
+            continue
+        if not _name_token(word) or _ROMAN.match(word):
+            break
+        if lowered in TITLE_HEADS or lowered in _PLACE_WORDS:
+            return None  # "SMITH, Partners", "FERNHILL, Mill Road": not a person
+        if lowered in _NOT_NAME:
+            break
+        index += 1
+    if index == given_start:
+        return None
+    last = tokens[index - 1]
+    return tokens[0][0], last[1] if _INITIAL.match(last[2]) else len(text[: last[1]].rstrip(".,"))
+
+
 def leading_name(text: str, offset: int = 0, max_tokens: int = 4) -> tuple[int, int, str] | None:
     """The personal name that ``text`` starts with, as ``(start, end, normalised)``.
 
     Courtesy titles are skipped; the name stops at punctuation, a lower-case word (other
-    than a particle such as "de" or "van"), a digit or a dash between spaces.
+    than a particle such as "de" or "van"), a digit or a dash between spaces.  A surname
+    written first ("WALSH, Eamon", "de la Cruz, María José") is read whole and turned
+    round ("Eamon Walsh").
     """
     text = text.translate(_INVISIBLE)  # zero-width and bidi controls count as spaces; offsets stay
+    inverted = _inverted_name(text)
+    if inverted is not None:
+        start, end = inverted
+        return offset + start, offset + end, normalise_name(text[start:end])
     tokens: list[tuple[int, int, str]] = []
     position = 0
+    titled = False
     for match in _TOKEN.finditer(text):
         gap = text[position : match.start()]
         if tokens and (any(ch in gap for ch in ",;:()|/<>[]\"\n") or gap.count(" ") > 3):
@@ -299,10 +373,11 @@ def leading_name(text: str, offset: int = 0, max_tokens: int = 4) -> tuple[int, 
         if word in ("-", "–", "—", "&"):
             break
         if not tokens and _TITLES.match(word):
+            titled = True
             continue
         lowered = word.lower().strip(".")
-        if tokens and word.lower() in _PARTICLES and len(tokens) < max_tokens:
-            tokens.append((match.start(), match.end(), word))
+        if (tokens or titled) and word.lower() in _PARTICLES and len(tokens) < max_tokens:
+            tokens.append((match.start(), match.end(), word))  # "Ms. van der Berg" too
             continue
         if _INITIAL.match(word) or _ROMAN.match(word) and tokens:
             tokens.append((match.start(), match.end(), word))
@@ -353,20 +428,59 @@ def _all_title_words(tokens: list[str]) -> bool:
 
 
 def normalise_name(raw: str) -> str:
-    """"SURNAME, Given" → "Given Surname"; ALL-CAPS parts → normal case; spacing folded."""
+    """"SURNAME, Given" → "Given Surname"; ALL-CAPS parts → normal case; spacing folded.
+
+    Words in capitals become "Walsh", "McAllister", "MacDonald", "O'Brien", "Smith-Jones";
+    particles in capitals inside a name become lower case ("MARÍA DE LA CRUZ" → "María
+    de la Cruz").  Words written in mixed case are kept as written ("De Luca").
+    """
     raw = " ".join(raw.replace("\u00a0", " ").split()).strip(" ,;")
     if raw.count(",") == 1:
         left, right = (part.strip() for part in raw.split(","))
-        if left and right and " " not in left and not _ROMAN.match(right):
+        if left and right and _surname_shaped(left) and not _ROMAN.match(right):
             raw = f"{right} {left}"
     parts = []
-    for part in raw.split(" "):
-        letters = [ch for ch in part if ch.isalpha()]
-        if len(letters) > 1 and all(ch.isupper() for ch in letters) and not _ROMAN.match(part):
-            part = "-".join(piece.capitalize() for piece in part.lower().split("-"))
-            part = "'".join(p[:1].upper() + p[1:] for p in part.split("'"))
+    for index, part in enumerate(raw.split(" ")):
+        if _capitals(part) and not _ROMAN.match(part):
+            if index and part.lower() in _PARTICLES:
+                part = part.lower()
+            else:
+                part = "-".join(_case_piece(piece) for piece in part.split("-"))
         parts.append(part)
     return " ".join(parts)
+
+
+def _surname_shaped(left: str) -> bool:
+    """One word, or particles and a word ("de la Cruz"), or words in capitals ("VAN DIJK")."""
+    words = left.split()
+    if len(words) == 1:
+        return True
+    core = [word for word in words if word.lower() not in _PARTICLES]
+    return len(core) <= 2 and (len(core) < len(words) or all(_capitals(word) for word in core))
+
+
+def _case_piece(piece: str) -> str:
+    """One hyphen-free piece of a name in capitals, in normal case (common practice, no source)."""
+    out = re.sub(r"[^'’]+", lambda m: m.group()[:1].upper() + m.group()[1:].lower(), piece)
+    lowered = out.lower()
+    if lowered.startswith("mc") and len(out) > 3 and out[2].isalpha():
+        out = "Mc" + out[2].upper() + out[3:]
+    elif lowered.startswith("mac") and len(out) >= 7 and out[3].lower() not in "aeiouhky":
+        out = "Mac" + out[3].upper() + out[4:]  # "MACDONALD" → "MacDonald"; "MACHADO" stays "Machado"
+    return out
+
+
+def name_core(name: str) -> list[str]:
+    """The words of a name other than courtesy titles and particles ("Mr. De Luca" → ["Luca"])."""
+    return [word for word in name.split() if word.lower() not in _PARTICLES and not _TITLES.match(word)]
+
+
+def is_partial_name(name: str) -> bool:
+    """A surname or given name alone ("Walsh", "De Luca"), or initials and a surname ("E. Walsh")."""
+    core = name_core(name)
+    if len(core) < 2:
+        return True
+    return all(len(word.rstrip(".")) == 1 for word in core[:-1]) or len(core[-1].rstrip(".")) == 1
 
 
 def name_tokens(name: str) -> list[str]:

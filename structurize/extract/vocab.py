@@ -148,24 +148,79 @@ class Vocabulary:
         negated = bool(_NEGATION_BEFORE.search(line_before)) or bool(_NEGATION_AFTER.match(after))
         return VocabMention(s, e, value, variant, negated, ticked, loose)
 
-    def near_miss(self, phrase: str) -> list[tuple[str, str, float]]:
-        """Variants near ``phrase``: ``(value, variant, similarity)``, best first.
+    @cached_property
+    def _generic_words(self) -> frozenset[str]:
+        """Words of the canonical values that do not tell them apart: the last word two or
+        more values share ("Branch" in "Hilltop Branch" and "Riverdale Branch", "Services")
+        and words that name a kind of place or unit (common practice, no source).  A shared
+        first word ("Hilltop" of "Hilltop Branch" and "Hilltop Depot") still tells a value
+        apart from the others, if not from each other."""
+        counts: dict[str, int] = {}
+        last_only: dict[str, bool] = {}
+        for value in self.values:
+            words = _WORDS.findall(fold(value))
+            for word in dict.fromkeys(words):
+                counts[word] = counts.get(word, 0) + 1
+                last_only[word] = last_only.get(word, True) and word == words[-1] and len(words) > 1
+        return frozenset(word for word, count in counts.items() if count > 1 and last_only[word]) | GENERIC_WORDS
 
-        A variant is near when it is at most ``fuzzy_distance`` edits away (rapidfuzz
+    def _strip_generic(self, phrase: str) -> str:
+        return " ".join(word for word in _WORDS.findall(fold(phrase)) if word not in self._generic_words)
+
+    @cached_property
+    def distinctive_parts(self) -> dict[str, tuple[str, ...]]:
+        """Folded distinctive part → the canonical values it belongs to ("hilltop" →
+        ("Hilltop Branch",)).  Only for choices, only where the part differs from the value
+        and keeps at least three letters."""
+        if self.kind != "choice":
+            return {}
+        out: dict[str, tuple[str, ...]] = {}
+        for value in self.values:
+            part = self._strip_generic(value)
+            if len(part.replace(" ", "")) >= 3 and part != " ".join(_WORDS.findall(fold(value))):
+                out[part] = out.get(part, ()) + (value,)
+        return out
+
+    def by_distinctive_part(self, phrase: str) -> tuple[str, ...]:
+        """The canonical values whose distinctive part ``phrase`` is ("Hilltop", "Hilltop site")."""
+        part = self._strip_generic(phrase)
+        return self.distinctive_parts.get(part, ()) if part else ()
+
+    def near_miss(self, phrase: str) -> list[tuple[str, str, float]]:
+        """Listed values near ``phrase``: ``(value, variant, similarity)``, best first, one
+        entry per value, every value within reach.
+
+        A value is near when one of its variants, or its distinctive part (see
+        :attr:`distinctive_parts`), is at most ``fuzzy_distance`` edits away (rapidfuzz
         Levenshtein distance, after case and dash folding) and at least 60 % similar
         (``fuzz.ratio``), so that two edits never turn a four-letter word into another.
         """
         target = fold(phrase)
         if not target or self.fuzzy_distance <= 0:
             return []
-        choices = self._folded
-        results = []
-        for _, score, index in process.extract(target, choices, scorer=fuzz.ratio, limit=5, score_cutoff=60):
-            variant, value = self.pairs[index]
-            distance = Levenshtein.distance(target, choices[index])
-            if distance <= self.fuzzy_distance:
-                results.append((value, variant, score / 100))
-        return results
+        choices = self._near_choices
+        best: dict[str, tuple[str, str, float]] = {}
+        for folded, score, index in process.extract(target, [c[0] for c in choices], scorer=fuzz.ratio, limit=None, score_cutoff=60):
+            if Levenshtein.distance(target, folded, score_cutoff=self.fuzzy_distance) > self.fuzzy_distance:
+                continue
+            _, variant, value = choices[index]
+            if value not in best or score / 100 > best[value][2]:
+                best[value] = (value, variant, score / 100)
+        return sorted(best.values(), key=lambda item: -item[2])
+
+    @cached_property
+    def _near_choices(self) -> list[tuple[str, str, str]]:
+        """``(folded text, variant, value)`` for every variant and distinctive part."""
+        choices = [(folded, *self.pairs[index]) for index, folded in self._folded.items()]
+        return choices + [(part, part, value) for part, values in self.distinctive_parts.items() for value in values]
+
+
+#: Words naming a kind of place or unit; left out of a listed value's distinctive part
+#: ("Hilltop" of "Hilltop Branch") (common practice, no source).
+GENERIC_WORDS = frozenset(
+    """branch site depot center centre office library clinic hospital store plant yard campus warehouse
+    building facility unit location station works hub terminal""".split()
+)
 
 
 def _is_abbreviation(variant: str) -> bool:
