@@ -14,7 +14,8 @@ How confidence is computed (also in DEVELOPERS.md, "Confidence"):
    lowers confidence to ``b · (1 - ½ (c/b)²)``: a close rival halves it, a weak one barely
    matters.
 4. Ambiguity lowers it further: an ambiguous numeric date, a year taken from the document's
-   date, a guessed text encoding, a partial name, a value that acts for someone else.
+   date or a century inferred from it, an amount whose separators may be read two ways, a
+   guessed text encoding, a partial name, a value that acts for someone else.
 5. A near miss of a choice (an edit-distance match) always goes to review; validation
    (next stage) turns failures into ``invalid``.
 """
@@ -38,6 +39,7 @@ FLAG_FACTORS = {
     "ambiguous_order_unconfigured": 0.6,
     "order_swapped": 0.9,
     "year_inferred": 0.96,
+    "century_inferred": 0.96,  # "31 Dec 25": two digits of the year written
     "weak_anchor": 0.75,
     "weekday_mismatch": 0.6,
     "relative": 0.92,
@@ -45,6 +47,7 @@ FLAG_FACTORS = {
     "partial_name": 0.7,
     "acting_for": 0.9,
     "separators_normalised": 0.97,
+    "ambiguous_separator": 0.6,  # "$4.200": a decimal mark or thousands (extract/money.py)
     "ocr": 0.8,
 }
 #: Confidence that a field is absent when nothing at all was found for it.
@@ -182,16 +185,30 @@ def companions(schema: TargetSchema) -> dict[str, str]:
 
 
 def period_candidate(spec: FieldSpec, money_value: FieldValue, money_candidates: list[Candidate], vocabulary: Any) -> Candidate | None:
-    """The pay period of the chosen money value, as a candidate for its companion field."""
+    """The pay period of the chosen money value, as a candidate for its companion field.
+
+    The period written right after the chosen amount counts most (0.92); written after
+    another mention of the same amount ("Salary: £38,500" ... "(£38,500) a year") 0.88; only
+    named near the amount ("Annual salary: ...") 0.75.
+    """
     chosen = next(
         (c for c in money_candidates if c.extractor == money_value.extractor and c.span == money_value.span), None
     )
     if chosen is None or money_value.value is None:
         return None
-    period = chosen.facet("period")
+    source, score, where = chosen, 0.92, "written next to the amount"
+    if chosen.facet("period") is None or chosen.facet("period_from") == "context":
+        written = [
+            c for c in money_candidates
+            if c.value == money_value.value and c.facet("period") is not None and c.facet("period_from") != "context"
+        ]
+        if written:
+            source, score, where = max(written, key=lambda c: c.score), 0.88, "written next to another mention of the amount"
+        elif chosen.facet("period") is not None:
+            score, where = 0.75, "named near the amount"
+    period = source.facet("period")
     if period is None:
         return None
-    written = chosen.facet("period_from") != "context"
     canonical = None
     for probe in (period, f"per {period}", f"an {period}", f"a {period}"):
         mentions = vocabulary.find(probe, loose=False)
@@ -203,9 +220,9 @@ def period_candidate(spec: FieldSpec, money_value: FieldValue, money_candidates:
     return Candidate(
         field=spec.name,
         value=canonical,
-        raw=chosen.raw,
-        span=chosen.span,
+        raw=source.raw,
+        span=source.span,
         extractor="companion.v1",
-        score=0.92 if written else 0.75,
-        evidence=(f"pay period of {money_value.field}", "written next to the amount" if written else "named near the amount"),
+        score=score,
+        evidence=(f"pay period of {money_value.field}", where),
     )

@@ -192,7 +192,7 @@ def read_money(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Read
     cue_words = {word for cue in spec.hints.cues for word in cue.lower().split()}
     for mention in an.money:
         if start <= mention.start < end:
-            flags = set()
+            flags = set(mention.flags)  # ambiguous_separator, no_currency (money.py)
             quality = 1.0 if mention.currency else 0.85
             line = an.line_of(mention.start)
             before = re.split(r"[.;!?]\s|\|", an.text[max(line.start, mention.start - 45) : mention.start])[-1]
@@ -209,7 +209,7 @@ def read_money(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Read
             facets = (("period", period), ("period_from", "amount" if mention.period else "context")) if period else ()
             if mention.currency:
                 facets += (("currency", mention.currency),)
-            out.append(Reading(mention.amount, mention.start, mention.end, quality, frozenset(flags), facets))
+            out.append(Reading(mention.amount, mention.start, mention.end, quality, frozenset(flags), facets, evidence=mention.notes))
     return out or _missing_list(an, start, end)
 
 
