@@ -18,6 +18,11 @@ How confidence is computed (also in DEVELOPERS.md, "Confidence"):
    guessed text encoding, a partial name, a value that acts for someone else.
 5. A near miss of a choice (an edit-distance match) always goes to review; validation
    (next stage) turns failures into ``invalid``.
+6. Evidence found only through other wordings than the field's cues (flag ``indirect``)
+   never beats a value found through them; a value resting only on resemblance (flag
+   ``uncued``: a label no cue names, a title word in running text) stays under
+   ``review_below``.  Signs that a value is there but unread (flag ``unread_value``) count
+   only when nothing else was found: the gap then goes to review instead of ``missing``.
 """
 
 from __future__ import annotations
@@ -108,11 +113,22 @@ def _groups(candidates: Iterable[Candidate]) -> list[_Group]:
             remaining *= 1.0 - weight * score
             weight = 0.5
         groups.append(_Group(key, 1.0 - remaining, members[0][1], tuple(c for _, c in members)))
-    groups.sort(key=lambda g: (-g.support, g.best.span.start))
+    # evidence found only through other wordings (a label no cue names, a synonym or a title
+    # word in running text: flag ``indirect``) never displaces evidence found through the cues
+    direct = any(not _indirect(g) for g in groups)
+    groups.sort(key=lambda g: (direct and _indirect(g), -g.support, g.best.span.start))
     return groups
 
 
+def _indirect(group: _Group) -> bool:
+    return all("indirect" in c.flags for c in group.members)
+
+
 def resolve_field(spec: FieldSpec, candidates: list[Candidate], *, review_below: float, cues_seen: bool) -> FieldValue:
+    unread = [c for c in candidates if "unread_value" in c.flags]
+    candidates = [c for c in candidates if "unread_value" not in c.flags]
+    if unread and not candidates:
+        return _unread_gap(spec, min(unread, key=lambda c: c.score), review_below)
     groups = _groups(candidates)
     if not groups:
         confidence = ABSENT_WITH_CUES_CONFIDENCE if cues_seen else ABSENT_CONFIDENCE
@@ -142,6 +158,11 @@ def resolve_field(spec: FieldSpec, candidates: list[Candidate], *, review_below:
         status = ValueStatus.REVIEW
         confidence = min(confidence, review_below - 0.05)
         reasons.append("near miss of a listed value")
+    if value is not None and all("uncued" in c.flags for c in best.members):
+        # found only through words that resemble the field's (a label no cue names, a title
+        # word in running text), with nothing else agreeing: a reviewer decides
+        confidence = min(confidence, review_below - 0.05)
+        reasons.append("found only through words that resemble the field's, not its cues")
     if "unreadable_characters" in chosen.flags and value is not None:
         status = ValueStatus.REVIEW
         confidence = min(confidence, review_below - 0.05)
@@ -165,6 +186,23 @@ def resolve_field(spec: FieldSpec, candidates: list[Candidate], *, review_below:
         reason="; ".join(reasons),
         evidence=chosen.evidence,
         alternatives=alternatives,
+    )
+
+
+def _unread_gap(spec: FieldSpec, sign: Candidate, review_below: float) -> FieldValue:
+    """No value, but the document shows one is there (a label or cue with nothing readable):
+    a gap a reviewer should look at, not a value that is simply absent."""
+    confidence = min(sign.score, review_below - 0.05)
+    return FieldValue(
+        field=spec.name,
+        value=None,
+        confidence=round(max(0.0, confidence), 3),
+        status=ValueStatus.REVIEW,
+        span=sign.span,
+        raw=sign.raw,
+        extractor=sign.extractor,
+        reason="a value may be present but was not read: " + "; ".join(sign.evidence),
+        evidence=sign.evidence,
     )
 
 

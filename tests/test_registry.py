@@ -7,7 +7,8 @@ from structurize.readers import READERS, SUFFIXES
 
 EXPECTED_READERS = ["reader.docx.v1", "reader.email.v1", "reader.html.v1", "reader.markdown.v1", "reader.pdf.v1", "reader.text.v1"]
 EXPECTED_EXTRACTORS = [
-    "dateline.v1", "header.v1", "label.v1", "pattern.v1", "prose.v1", "role.v1", "scan.v1", "subject.v1", "title-transition.v1", "transition.v1",
+    "dateline.v1", "header.v1", "label.v1", "pattern.v1", "prose-synonym.v1", "prose-title.v1", "prose.v1", "role.v1", "scan.v1", "subject.v1",
+    "title-transition.v1", "transition.v1", "unclaimed-label.v1", "unread.v1",
 ]
 
 

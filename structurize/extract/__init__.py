@@ -49,6 +49,10 @@ def register_builtin_extractors() -> None:
     register_extractor("title-transition.v1", x.title_transition_extractor, ("job_title",))
     register_extractor("subject.v1", x.subject_extractor, ("person",))
     register_extractor("pattern.v1", x.pattern_extractor, ("identifier", "email", "phone"))
+    register_extractor("unclaimed-label.v1", x.unclaimed_label_extractor, tuple(sorted(x.UNCLAIMED_KINDS)))
+    register_extractor("prose-synonym.v1", x.prose_synonym_extractor)
+    register_extractor("prose-title.v1", x.prose_title_extractor, tuple(sorted(x.UNCLAIMED_KINDS)))
+    register_extractor("unread.v1", x.unread_extractor)
 
 
 def extract_candidates(

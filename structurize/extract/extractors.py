@@ -1,16 +1,24 @@
 """The built-in extractors.  Each one looks in one kind of place and yields candidates.
 
-=================  ===================================================================
-``label.v1``       ``Label: value`` lines, table rows and form layouts whose label matches
-                   a cue of the field
-``prose.v1``       a value close to a cue in running text ("report to ...", "your first
-                   day will be ...")
-``header.v1``      email headers (From, To, Date, Subject ...)
-``dateline.v1``    the date line of a letter, for a field cued as the document's "date"
-``role.v1``        people by their role: addressee, signer, author, someone signed for
-``scan.v1``        vocabulary mentions and ticked boxes anywhere (weak evidence)
-``pattern.v1``     identifiers, email addresses and phone numbers anywhere (weak evidence)
-=================  ===================================================================
+========================  ============================================================
+``label.v1``              ``Label: value`` lines, table rows and form layouts whose label
+                          matches a cue of the field
+``prose.v1``              a value close to a cue in running text ("report to ...", "your
+                          first day will be ...")
+``header.v1``             email headers (From, To, Date, Subject ...)
+``dateline.v1``           the date line of a letter, for a field cued as the document's "date"
+``role.v1``               people by their role: addressee, signer, author, someone signed for
+``scan.v1``               vocabulary mentions and ticked boxes anywhere (weak evidence)
+``pattern.v1``            identifiers, email addresses and phone numbers anywhere (weak)
+``unclaimed-label.v1``    a label no field's cues name, whose value reads as the field's kind
+                          and whose words are the field's own (title, name, description,
+                          cues): weak, to review
+``prose-synonym.v1``      running text wording a cue through the synonym tables ("begin on"
+                          for "start on", "final shift" for "last day")
+``prose-title.v1``        a word of the field's title in running text (weak, to review)
+``unread.v1``             no value: signs that one is there but was not read (a label or cue
+                          of the field with nothing readable), so the gap goes to review
+========================  ============================================================
 
 Scores are the strength of one piece of evidence alone; :mod:`structurize.resolve`
 combines them.  How each score is built is documented in DEVELOPERS.md ("Confidence").
@@ -19,16 +27,20 @@ combines them.  How each score is built is documented in DEVELOPERS.md ("Confide
 from __future__ import annotations
 
 import re
+import weakref
 from collections.abc import Iterator
+from dataclasses import replace
+from functools import lru_cache
 
 from ..readers.builder import UNICODE_CONTROLS
 from ..schema.model import FieldSpec
 from ..types import Alternative, Candidate, Span
 from . import kinds
-from .analysis import Analysis, Person
+from .analysis import Analysis, CueHit, Person
 from .kinds import Reading
+from .layout import LabelPair
 from .vocab import Vocabulary
-from .text import cue_match, leading_name, norm
+from .text import GENERIC_LABEL_WORDS, PhraseSet, content_stems, cue_match, field_word_stems, leading_name, norm, stem, stems_meet, synonym_variants
 
 #: Below this cue/label match a label is not taken as naming the field.
 MIN_LABEL_MATCH = 0.6
@@ -139,7 +151,8 @@ def _ordered(readings: list[Reading]) -> list[Reading]:
 # --- label.v1 ------------------------------------------------------------------------------
 
 
-def label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+def _label_matches(an: Analysis, spec: FieldSpec) -> Iterator[tuple[LabelPair, str, float, str, float]]:
+    """Label/value pairs whose label names ``spec``: ``(pair, label, match, cue, ownership)``."""
     for pair in an.pairs:
         if pair.source == "header":
             continue
@@ -166,6 +179,11 @@ def label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
         if margin >= 0.25 or (margin > 0.2 and match + margin >= 0.95):
             continue  # another field's cues name this label clearly better
         ownership = 1.0 if margin <= 0.02 else max(0.3, 1.0 - 2 * margin)
+        yield pair, label, match, cue, ownership
+
+
+def label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    for pair, label, match, cue, ownership in _label_matches(an, spec):
         readings = kinds.read(an, spec, pair.value_span.start, pair.value_span.end)
         readings = [r for r in readings if r.quality > 0]
         if not readings:
@@ -205,19 +223,27 @@ def _skip_fillers(text: str, position: int, limit: int) -> tuple[int, str | None
 
 
 def prose_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    hits = [(hit, f"cue {hit.cue!r} in running text") for hit in an.cue_hits.get(spec.name, ())]
+    yield from _prose_candidates(an, spec, hits, "prose.v1", 1.0)
+
+
+def _prose_candidates(
+    an: Analysis, spec: FieldSpec, hits: list[tuple[CueHit, str]], name: str, factor: float
+) -> Iterator[Candidate]:
+    """Values after (or just before) each cue hit in running text; ``factor`` scales the scores."""
     kind = spec.hints.kind
-    for hit in an.cue_hits.get(spec.name, ()):
+    for hit, note in hits:
         if norm(hit.cue) in _LABEL_ONLY_CUES or _inside_label(an, hit.start, hit.end):
             continue
         sentence_start, sentence_end = an.sentence(hit.start)
         limit = min(len(an.text), hit.end + PROSE_REACH, max(sentence_end, hit.end + 1))
-        weight = PROSE_WEIGHT * (1.0 if len(hit.cue.split()) > 1 else 0.85)
-        evidence = (f"cue {hit.cue!r} in running text",)
+        weight = factor * PROSE_WEIGHT * (1.0 if len(hit.cue.split()) > 1 else 0.85)
+        evidence = (note,)
         if kind == "person" and _AUTHOR_CUE.search(hit.cue) and not an.excluded(hit.start):
             # "I approve the transfer": the person is whoever wrote the document
             resolved = _resolve_first_person(an, spec, Reading(None, hit.start, hit.end, 1.0))
             if resolved is not None:
-                yield _candidate(spec, resolved, "prose.v1", weight, evidence + ("first-person cue",), an)
+                yield _candidate(spec, resolved, name, weight, evidence + ("first-person cue",), an)
             continue
         found = False
         for reading, distance in _prose_readings(an, spec, hit.start, hit.end, limit):
@@ -229,7 +255,7 @@ def prose_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
                 if resolved is None:
                     continue
                 reading = resolved
-            yield _candidate(spec, reading, "prose.v1", weight * decay * reading.quality, evidence, an)
+            yield _candidate(spec, reading, name, weight * decay * reading.quality, evidence, an)
             found = True
             break
         if found or kind not in ("date", "person", "flag", "choice"):
@@ -240,7 +266,7 @@ def prose_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             # "I would like to request a transfer": the writer is the person
             resolved = _resolve_first_person(an, spec, Reading(None, hit.start, hit.end, 1.0))
             if resolved is not None:
-                yield _candidate(spec, resolved, "prose.v1", weight * 0.8, evidence + ("first-person clause",), an)
+                yield _candidate(spec, resolved, name, weight * 0.8, evidence + ("first-person clause",), an)
             continue
         readings = [
             r for r in kinds.read(an, spec, before_start, hit.start)
@@ -248,7 +274,7 @@ def prose_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
         ]
         if readings:
             reading = readings[-1]
-            yield _candidate(spec, reading, "prose.v1", weight * 0.7 * reading.quality, evidence + ("value before the cue",), an)
+            yield _candidate(spec, reading, name, weight * 0.7 * reading.quality, evidence + ("value before the cue",), an)
 
 
 def _prose_readings(an: Analysis, spec: FieldSpec, start: int, end: int, limit: int) -> Iterator[tuple[Reading, int]]:
@@ -568,3 +594,292 @@ def acting_for_alternatives(an: Analysis, candidate: Candidate) -> Candidate:
         alternatives=candidate.alternatives + (alternative,),
         evidence=candidate.evidence + (f"acts on behalf of {found[2]}",),
     )
+
+
+# --- unclaimed-label.v1 ------------------------------------------------------------------------
+#
+# A label no field's cues name ("Date employment ends", "Leaving on") whose value reads as
+# a field's kind and whose words are the field's own words (its title, its name split at
+# "_", its description or its cues, compared by stem) is weak evidence for that field:
+# enough to fill a gap for a reviewer, never enough to stand alone (resolve.py keeps it
+# under ``review_below`` unless other evidence agrees) or to displace cued evidence.
+
+#: Kinds whose reading says something by itself; free text would fit any label.
+UNCLAIMED_KINDS = frozenset("person date money identifier email phone choice flag job_title number".split())
+#: Score of a value under an unclaimed label sharing the field's title or name words ...
+UNCLAIMED_STRONG = 0.6
+#: ... or only words of its description or cues.
+UNCLAIMED_WEAK = 0.5
+#: Several fields of the value's kind share the label's words equally: each gets this share.
+UNCLAIMED_TIED = 0.8
+
+
+def _field_words(spec: FieldSpec) -> tuple[frozenset[str], frozenset[str]]:
+    return field_word_stems(spec.title, spec.name, spec.description, spec.hints.cues)
+
+
+def _claimed_by_any(an: Analysis, pair: LabelPair) -> bool:
+    labels = [pair.label] + ([pair.column, f"{pair.column} {pair.label}", f"{pair.label} {pair.column}"] if pair.column else [])
+    return any(_best_cue(other, label)[0] >= MIN_LABEL_MATCH for other in an.schema.fields for label in labels)
+
+
+def _shared_words(spec: FieldSpec, label_stems: frozenset[str]) -> tuple[int, tuple[str, ...]]:
+    """How well a label's words are the field's words: 2 title/name, 1 description/cues, 0 none."""
+    strong, weak = _field_words(spec)
+    for level, stems in ((2, strong), (1, weak)):
+        shared = tuple(sorted(word for word in label_stems if any(stems_meet(word, other) for other in stems)))
+        if shared:
+            return level, shared
+    return 0, ()
+
+
+def _unclaimed_kind_ok(spec: FieldSpec) -> bool:
+    kind = spec.hints.kind
+    if kind not in UNCLAIMED_KINDS:
+        return False
+    return kind != "identifier" or (spec.hints.pattern or spec.pattern) is not None
+
+
+def _kind_reading(an: Analysis, spec: FieldSpec, span: Span) -> Reading | None:
+    """The first reading of ``spec``'s kind that stands by itself (no near miss, no guess)."""
+    for reading in _ordered(kinds.read(an, spec, span.start, span.end)):
+        if reading.value is None or reading.quality <= 0 or "near_miss" in reading.flags:
+            continue
+        if spec.hints.kind == "job_title" and reading.quality < 0.9:
+            continue  # a title needs a recognised head word here ("Library Assistant")
+        if spec.hints.kind == "person" and "partial_name" in reading.flags:
+            continue
+        return reading
+    return None
+
+
+_UNCLAIMED: "weakref.WeakKeyDictionary[Analysis, list[tuple[LabelPair, frozenset[str]]]]" = weakref.WeakKeyDictionary()
+
+
+def _unclaimed_pairs(an: Analysis) -> list[tuple[LabelPair, frozenset[str]]]:
+    """Label/value pairs whose label no field's cues name, with the label's word stems
+    (computed once per document)."""
+    cached = _UNCLAIMED.get(an)
+    if cached is None:
+        cached = []
+        for pair in an.pairs:
+            if pair.source == "header" or not len(pair.value_span):
+                continue
+            stems = content_stems(an.text[pair.label_span.start : pair.label_span.end])
+            if stems and not _claimed_by_any(an, pair):
+                cached.append((pair, stems))
+        _UNCLAIMED[an] = cached
+    return cached
+
+
+def unclaimed_label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    if not _unclaimed_kind_ok(spec):
+        return
+    for pair, stems in _unclaimed_pairs(an):
+        level, shared = _shared_words(spec, stems)
+        if not level or (spec.hints.kind == "number" and level < 2):
+            continue
+        reading = _kind_reading(an, spec, pair.value_span)
+        if reading is None:
+            continue
+        tied = False
+        for other in an.schema.fields:
+            if other.name == spec.name or not _unclaimed_kind_ok(other):
+                continue
+            other_level, _ = _shared_words(other, stems)
+            if other_level < level or _kind_reading(an, other, pair.value_span) is None:
+                continue
+            if other_level > level:
+                break  # the label is another field's more than this one's
+            tied = True
+        else:
+            score = (UNCLAIMED_STRONG if level == 2 else UNCLAIMED_WEAK) * pair.strength * reading.quality
+            if tied:
+                score *= UNCLAIMED_TIED
+            label = an.text[pair.label_span.start : pair.label_span.end]
+            where = "title or name" if level == 2 else "description or cues"
+            evidence = (
+                f"label {label!r} matches no field's cue; it shares {', '.join(shared)!r} with this field's {where}",
+                f"layout {pair.source}",
+            ) + (("other fields share its words too",) if tied else ())
+            reading = Reading(reading.value, reading.start, reading.end, 1.0, reading.flags | {"unclaimed_label", "indirect", "uncued"},
+                              reading.facets, reading.alternatives, reading.evidence)
+            yield _candidate(spec, reading, "unclaimed-label.v1", score, evidence, an, fallback=True)
+
+
+# --- unread.v1 ------------------------------------------------------------------------------
+#
+# Signs that a field's value is in the document but was not read: a label that names the
+# field (or an unclaimed label with the field's title words) holds text that does not read
+# as the field's kind, or one of its cues occurs in running text.  The candidate has no
+# value; resolve.py uses it only when nothing else was found, and then sends the gap to
+# review instead of calling it missing.
+
+#: How sure the gap is right when a label for the field holds something unreadable ...
+UNREAD_LABEL = 0.4
+#: ... when an unclaimed label with the field's title words does ...
+UNREAD_UNCLAIMED = 0.55
+#: ... when one of its cues occurs in running text with nothing readable near it.
+UNREAD_PROSE = 0.6
+
+
+def _has_content(text: str) -> bool:
+    return bool(re.search(r"[^\W_]", text))
+
+
+def _unread(spec: FieldSpec, start: int, end: int, score: float, evidence: str) -> Candidate:
+    return Candidate(spec.name, None, "", Span(start, end), "unread.v1", score, (evidence,), frozenset({"unread_value", "fallback"}))
+
+
+def unread_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    kind = spec.hints.kind
+    for pair, label, match, cue, ownership in _label_matches(an, spec):
+        if an.excluded(pair.value_span.start):
+            continue
+        raw = an.text[pair.value_span.start : pair.value_span.end]
+        if not _has_content(raw) or any(r.quality > 0 for r in kinds.read(an, spec, pair.value_span.start, pair.value_span.end)):
+            continue
+        shown = " ".join(raw.split())[:40]
+        yield _unread(spec, pair.value_span.start, pair.value_span.end, UNREAD_LABEL,
+                      f"label {an.text[pair.label_span.start:pair.label_span.end]!r} (cue {cue!r}) holds {shown!r}, which does not read as a {kind}")
+        return
+    if _unclaimed_kind_ok(spec):
+        for pair, stems in _unclaimed_pairs(an):
+            level, shared = _shared_words(spec, stems)
+            if level < 2 or an.excluded(pair.value_span.start) or not _has_content(an.text[pair.value_span.start : pair.value_span.end]):
+                continue
+            if any(_shared_words(other, stems)[0] >= level for other in an.schema.fields if other.name != spec.name):
+                continue
+            if _kind_reading(an, spec, pair.value_span) is not None:
+                continue
+            label = an.text[pair.label_span.start : pair.label_span.end]
+            yield _unread(spec, pair.value_span.start, pair.value_span.end, UNREAD_UNCLAIMED,
+                          f"label {label!r} shares {', '.join(shared)!r} with this field's title; its value does not read as a {kind}")
+            return
+    for hit in an.cue_hits.get(spec.name, ()):
+        if {norm(hit.cue), norm(an.text[hit.start : hit.end])} & _LABEL_ONLY_CUES:
+            continue  # "dated" also finds the word "date", which running text uses for anything
+        if _inside_label(an, hit.start, hit.end) or an.excluded(hit.start):
+            continue
+        yield _unread(spec, hit.start, hit.end, UNREAD_PROSE, f"cue {hit.cue!r} occurs in running text with no {kind} read near it")
+        return
+    if kind == "date" and {norm(cue) for cue in spec.hints.cues} & {"date", "dated"} and not an.doc.headers and an.dateline is None:
+        line = _unread_dateline(an)
+        if line is not None:
+            shown = " ".join(an.text[line.start : line.end].split())[:40]
+            yield _unread(spec, line.start, line.end, UNREAD_PROSE, f"the line {shown!r} near the top names a month and a year but was not read as a date")
+
+
+_MONTH = r"(?:jan|feb|mar|apr|may|jun|jul|aug|sep|oct|nov|dec)[a-z]*\.?"
+_MONTH_AND_YEAR = re.compile(rf"\b{_MONTH}(?!\w).*\b(?:1[89]|20)\d\d\b|\b(?:1[89]|20)\d\d\b.*\b{_MONTH}(?!\w)", re.IGNORECASE)
+
+
+def _unread_dateline(an: Analysis) -> Span | None:
+    """A short line near the top naming a month and a year with no date read on it
+    ("Fourteenth of April, 2025"): the letter's date, written in a form not read."""
+    for line in an.doc.lines[:15]:
+        raw = an.text[line.start : line.end].strip(" *_#")
+        if not raw or len(raw.split()) > 6 or not _MONTH_AND_YEAR.search(raw):
+            continue
+        if any(line.start <= d.start < line.end and d.value is not None for d in an.dates):
+            continue
+        return line
+    return None
+
+
+# --- prose-synonym.v1, prose-title.v1 --------------------------------------------------------
+#
+# Running text that words a cue differently: a wording the synonym tables read as one of the
+# field's cues ("begin on" for "start on", "final shift" for "last day"), or a word of the
+# field's own title ("pays" for a field titled "Base pay").  Both are weaker than the cue
+# itself and never displace evidence found through the field's cues (flag ``indirect``);
+# title words also stay under ``review_below`` when nothing else agrees (flag ``uncued``).
+
+#: Scores of prose evidence through a synonym of a cue, against the cue itself (as for
+#: labels read through the synonym tables) ...
+PROSE_SYNONYM_FACTOR = 0.95
+#: ... and through a word of the field's title.
+PROSE_TITLE_FACTOR = 0.6
+_HITS: "weakref.WeakKeyDictionary[Analysis, dict[str, list[tuple[CueHit, str]]]]" = weakref.WeakKeyDictionary()
+
+
+@lru_cache(maxsize=64)
+def _variant_matcher(fields: tuple[tuple[str, tuple[str, ...]], ...]) -> tuple[list[str], list[list[tuple[str, str]]], PhraseSet | None]:
+    cues = {norm(cue) for _, field_cues in fields for cue in field_cues}
+    variants: list[str] = []
+    owners: list[list[tuple[str, str]]] = []
+    for name, field_cues in fields:
+        for cue in field_cues:
+            normed = norm(cue)
+            if normed in _LABEL_ONLY_CUES:
+                continue
+            for variant in synonym_variants(normed):
+                if variant in cues:
+                    continue
+                if variant not in variants:
+                    variants.append(variant)
+                    owners.append([])
+                owners[variants.index(variant)].append((name, cue))
+    # the tables list the inflected forms they mean; inflecting them again finds too much
+    return variants, owners, PhraseSet(variants) if variants else None
+
+
+def _variant_hits(an: Analysis) -> dict[str, list[tuple[CueHit, str]]]:
+    cached = _HITS.get(an)
+    if cached is not None:
+        return cached
+    out: dict[str, list[tuple[CueHit, str]]] = {}
+    variants, owners, matcher = _variant_matcher(tuple((spec.name, spec.hints.cues) for spec in an.schema.fields))
+    if matcher is not None:
+        taken = [(hit.start, hit.end) for hits in an.cue_hits.values() for hit in hits]
+        for start, end, index in matcher.find(an.text):
+            if _cue_covers(taken, start, end):
+                continue  # a cue is here
+            for name, cue in dict.fromkeys(owners[index]):
+                if any(hit.start == start for hit, _ in out.get(name, ())):
+                    continue
+                note = f"{an.text[start:end]!r} in running text reads as the cue {cue!r}"
+                out.setdefault(name, []).append((CueHit(variants[index], start, end), note))
+    _HITS[an] = out
+    return out
+
+
+def _cue_covers(taken: list[tuple[int, int]], start: int, end: int) -> bool:
+    """A cue occurrence overlaps ``start:end`` and is at least as long (the longer wording wins)."""
+    return any(s < end and start < e and e - s >= end - start for s, e in taken)
+
+
+def _flagged(candidates: Iterator[Candidate], flags: frozenset[str]) -> Iterator[Candidate]:
+    for candidate in candidates:
+        yield replace(candidate, flags=candidate.flags | flags)
+
+
+def prose_synonym_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    hits = _variant_hits(an).get(spec.name, [])
+    yield from _flagged(_prose_candidates(an, spec, hits, "prose-synonym.v1", PROSE_SYNONYM_FACTOR), frozenset({"indirect", "fallback"}))
+
+
+@lru_cache(maxsize=1024)
+def _title_pattern(title: str, name: str) -> re.Pattern[str] | None:
+    """The content words of the field's title and name, inflected ("pay" finds "pays")."""
+    words = [w for w in dict.fromkeys(norm(f"{title} {name.replace('_', ' ')}").split())
+             if w.isalpha() and len(w) >= 3 and w not in GENERIC_LABEL_WORDS and w not in _LABEL_ONLY_CUES and w not in _FILLERS]
+    if not words:
+        return None
+    parts = "|".join(re.escape(stem(w)) + r"(?:e|es|ed|ing|s|er|ers|\w(?:ed|ing))?" for w in words)
+    return re.compile(rf"(?<![\w-])(?:{parts})(?![\w-])", re.IGNORECASE)
+
+
+def prose_title_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
+    if not _unclaimed_kind_ok(spec):
+        return
+    pattern = _title_pattern(spec.title, spec.name)
+    if pattern is None:
+        return
+    taken = [(hit.start, hit.end) for hits in an.cue_hits.values() for hit in hits]
+    hits = []
+    for match in pattern.finditer(an.text):
+        if _cue_covers(taken, match.start(), match.end()):
+            continue
+        hits.append((CueHit(match.group().lower(), match.start(), match.end()), f"{match.group()!r} is a word of the field's title"))
+    yield from _flagged(_prose_candidates(an, spec, hits, "prose-title.v1", PROSE_TITLE_FACTOR), frozenset({"indirect", "uncued", "fallback"}))

@@ -35,24 +35,45 @@ def fold(text: str) -> str:
 #: Label words that HR forms use for the words cues use (common practice, no source).
 LABEL_SYNONYMS = {
     "remuneration": "salary", "compensation": "salary", "wage": "salary", "wages": "salary", "earnings": "salary",
-    "hourly": "pay", "commencement": "start", "commencing": "start", "beginning": "start",
+    "basic": "base",
+    "hourly": "pay", "commencement": "start", "commencing": "start", "beginning": "start", "begin": "start", "begins": "start",
+    "joining": "start", "final": "last",
     "leaver": "employee", "staff": "employee", "worker": "employee", "colleague": "employee",
+    "appointee": "candidate", "applicant": "candidate",
     "re-employ": "rehire", "re-employment": "rehire", "re-engage": "rehire", "re-engagement": "rehire", "reemploy": "rehire",
+    "re-employed": "rehire", "re-hire": "rehire", "rehired": "rehire",
     "issued": "dated", "written": "dated", "present": "current", "currently": "current", "existing": "current",
     "home": "current", "destination": "new", "receiving": "new", "target": "new", "incoming": "new",
-    "future": "new", "after": "new", "post": "role", "position": "role", "job": "role", "title": "role",
+    "future": "new", "after": "new", "post": "role", "position": "role", "job": "role", "title": "role", "designation": "role",
     "authorised": "approved", "authorized": "approved", "signed-off": "approved", "sanctioned": "approved",
     "workplace": "location", "depot": "site", "team": "department", "division": "department",
-    "function": "department", "dept": "department",
+    "function": "department", "dept": "department", "section": "department", "directorate": "department",
+    "no": "number", "ref": "number",
 }
 
 
 #: Whole phrases first (common practice, no source).
 LABEL_PHRASES = {
-    "reporting line": "reports to", "line manager": "manager", "final shift": "last day", "last shift": "last day",
+    "reporting line": "reports to", "line manager": "manager", "reports into": "reports to",
+    "final shift": "last day", "last shift": "last day", "final working day": "last day",
     "last working day": "last day", "leaving date": "last day", "date of leaving": "last day",
+    "employment end date": "last day", "end of employment": "last day", "employment ends": "last day",
+    "separation date": "last day", "date of separation": "last day", "exit date": "last day",
+    "termination date": "last day", "date of termination": "last day",
+    "leaving on": "last day", "leaves on": "last day", "finishing on": "last day",
+    "first working day": "first day", "date of joining": "start date", "join date": "start date",
+    "reason for resigning": "reason for leaving", "reason for resignation": "reason for leaving",
+    "resignation reason": "reason for leaving", "reason for departure": "reason for leaving",
+    "departure reason": "reason for leaving", "leaving reason": "reason for leaving", "exit reason": "reason for leaving",
+    "principal reason": "main reason", "key reason": "main reason",
+    "carried out by": "conducted by",
+    "service area": "department", "business unit": "department",
+    "place of work": "work location", "base of work": "work location", "work base": "work location",
+    "new hire": "candidate",
     "start in new role": "effective date", "date of change": "effective date", "spoke with": "interviewer",
     "staff number": "employee number", "payroll number": "employee number", "personnel number": "employee number",
+    "payroll ref": "employee number", "payroll reference": "employee number", "payroll id": "employee id",
+    "payroll no": "employee number", "badge number": "employee number", "clock number": "employee number",
 }
 
 
@@ -66,6 +87,27 @@ def canonical_label(label: str) -> str:
     for word in label.split():
         words.extend(LABEL_SYNONYMS.get(word, word).split())
     return " ".join(words)
+
+
+@lru_cache(maxsize=4096)
+def synonym_variants(cue: str) -> tuple[str, ...]:
+    """Other wordings the synonym tables read as ``cue`` (already :func:`norm`-ed):
+    "start on" → "begin on", "commencing on" ...; "last day" → "final shift", "final day" ...
+
+    Whole phrases of :data:`LABEL_PHRASES` whose reading is the cue, and the cue with one
+    word replaced by a word :data:`LABEL_SYNONYMS` maps to it.
+    """
+    target = canonical_label(cue)
+    found = [phrase for phrase in LABEL_PHRASES if canonical_label(phrase) == target]
+    words = cue.split()
+    for index, word in enumerate(words):
+        base = LABEL_SYNONYMS.get(word, word)
+        for synonym, meaning in LABEL_SYNONYMS.items():
+            if meaning == base and synonym != word:
+                variant = " ".join(words[:index] + [synonym] + words[index + 1 :])
+                if canonical_label(variant) == target:
+                    found.append(variant)
+    return tuple(dict.fromkeys(v for v in found if v != cue))
 
 
 @lru_cache(maxsize=65536)
@@ -84,6 +126,65 @@ def cue_match(cue: str, label: str) -> float:
         if (variant_cue, variant_label) != (cue, label):
             score = max(score, 0.95 * _cue_match(variant_cue, variant_label))
     return score
+
+
+#: Words that carry no meaning of their own when a label is compared with a field's words.
+_STOP_WORDS = frozenset(
+    """a an the of to by on at for from in with as and or is are was were be been being will would shall should
+    can could may might must do does did has have had not no nor this that these those it its who whom whose
+    which what when where why how he she they we you i me him her them us his hers their our your my any all
+    each every other than only also just so such very if then there here into onto out up about over under
+    per via one ones new""".split()
+)
+#: Words that say what sort of value a label holds ("Date", "Name"), not what it is about.
+GENERIC_LABEL_WORDS = frozenset(
+    """date dated dates day days name names number numbers no id code value values detail details info
+    information field fields type kind entry item items full given actual record recorded""".split()
+)
+#: Words after which a field description says what the field is *not*; such a sentence
+#: names the distractors ("Not the notice date"), so its words are left out.
+_NEGATION = re.compile(r"\b(?:not|excludes?|excluding|without|never|except|nor|other than|rather than|does not count|do not count)\b", re.IGNORECASE)
+_SENTENCES = re.compile(r"(?<=[.!?;])\s+")
+
+
+@lru_cache(maxsize=65536)
+def content_stems(text: str) -> frozenset[str]:
+    """The stems of a label's (or a field text's) content words, with HR synonyms added:
+    "Date employment ends" → {employ, end}.  Stop words and generic words are left out."""
+    words = set()
+    for word in norm(text).replace("/", " ").split():
+        word = word.removesuffix("'s").strip("'")
+        if word in _STOP_WORDS or word in GENERIC_LABEL_WORDS or not any(ch.isalpha() for ch in word):
+            continue
+        words.add(word)
+        synonym = LABEL_SYNONYMS.get(word)
+        if synonym and synonym not in GENERIC_LABEL_WORDS:
+            words.add(synonym)
+    return frozenset(stem(word) for word in words if len(word) > 2)
+
+
+def stems_meet(a: str, b: str) -> bool:
+    """Two stems of one word family: equal, or one is the other with a short ending
+    ("leav" / "leaver", "employ" / "employer")."""
+    if a == b:
+        return True
+    short, long = sorted((a, b), key=len)
+    return len(short) >= 4 and long.startswith(short) and len(long) - len(short) <= 2
+
+
+@lru_cache(maxsize=4096)
+def field_word_stems(title: str, name: str, description: str, cues: tuple[str, ...]) -> tuple[frozenset[str], frozenset[str]]:
+    """What a field is about, as word stems: ``(strong, weak)``.
+
+    Strong words come from the field's title and its name split at ``_``; weak ones from
+    its description (leaving out sentences that say what the field is not) and its cues.
+    """
+    strong = content_stems(title) | content_stems(name.replace("_", " "))
+    kept = [sentence for sentence in _SENTENCES.split(description or "") if not _NEGATION.search(sentence)]
+    weak = content_stems(" ".join(kept))
+    for cue in cues:
+        weak |= content_stems(cue)
+    return strong, weak - strong
 
 
 def _stems(phrase: str) -> str:
