@@ -7,6 +7,8 @@ reader raises and the document boundary turns into a document status.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 
 class StructurizeError(Exception):
     """Base class: a problem that stops the run.  ``exit_code`` is what the CLI returns."""
@@ -25,6 +27,25 @@ class SchemaError(StructurizeError):
         self.message = message
         place = f"{source}: {where}: " if where else f"{source}: "
         super().__init__(f"schema error: {place}{message}")
+        #: Every problem found in the file, in file order; ``source``, ``where`` and
+        #: ``message`` are the first one's.  A single problem is the error itself.
+        self.problems: tuple[SchemaError, ...] = (self,)
+
+    @classmethod
+    def several(cls, problems: Sequence[SchemaError]) -> SchemaError:
+        """One error for all ``problems`` (at least one): ``str()`` gives one line per problem."""
+        if len(problems) == 1:
+            return problems[0]
+        first = problems[0]
+        error = cls(first.source, first.where, first.message)
+        error.problems = tuple(problem for item in problems for problem in item.problems)
+        error.args = ("\n".join(error.lines),)
+        return error
+
+    @property
+    def lines(self) -> tuple[str, ...]:
+        """One ``schema error: <file>: <where>: <what>`` line per problem."""
+        return tuple(problem.args[0] for problem in self.problems)
 
 
 class UsageError(StructurizeError):

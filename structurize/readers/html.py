@@ -27,9 +27,13 @@ _VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "me
 
 
 class _Converter(HTMLParser):
-    def __init__(self, builder: TextBuilder) -> None:
+    def __init__(self, builder: TextBuilder, quotes: bool = False) -> None:
         super().__init__(convert_charrefs=True)
         self.out = builder
+        self.quotes = quotes
+        #: one entry per open ``<blockquote>``: where its text starts, or None for one that
+        #: opened inside a table (its text goes into cells, written when the table ends)
+        self.quote_starts: list[int | None] = []
         self.line: list[str] = []
         self.skip_depth = 0
         self.pre_depth = 0
@@ -91,6 +95,8 @@ class _Converter(HTMLParser):
                 self._flush()
                 if tag == "li":
                     self.line.append("- ")
+            if tag == "blockquote" and self.quotes:
+                self.quote_starts.append(None if self.tables else self.out.offset)
         elif tag == "option" and "selected" in attributes:
             self._emit("[x] ")
 
@@ -114,8 +120,12 @@ class _Converter(HTMLParser):
             self.pre_depth = max(0, self.pre_depth - 1)
         elif tag in _BLOCK and self.cell is None:
             self._flush()
+            if tag == "blockquote" and self.quote_starts:
+                self._end_quote()
             if tag in ("p", "h1", "h2", "h3", "h4", "h5", "h6", "div", "table", "ul", "ol"):
                 self.out.blank()
+        elif tag == "blockquote" and self.quote_starts and self.tables:
+            self.quote_starts.pop()  # opened inside the table: never tracked
 
     def handle_startendtag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
         self.handle_starttag(tag, attrs)
@@ -139,9 +149,19 @@ class _Converter(HTMLParser):
         if self.cell is None:
             self._flush()
 
+    def _end_quote(self) -> None:
+        """A ``<blockquote>`` ends: the outermost one tracked becomes a ``quoted`` region."""
+        start = self.quote_starts.pop()
+        if start is None or any(outer is not None for outer in self.quote_starts):
+            return  # untracked, or nested in a quote that is marked as a whole
+        last = next((span.end for span in reversed(self.out.lines) if span.end > span.start), start)
+        self.out.mark("quoted", start, max(start, last))
+
     def close(self) -> None:
         super().close()
         self._flush()
+        while self.quote_starts:  # unclosed blockquotes run to the end of the text
+            self._end_quote()
 
 
 def _control_text(attributes: dict[str, str]) -> str:
@@ -153,9 +173,14 @@ def _control_text(attributes: dict[str, str]) -> str:
     return ""
 
 
-def html_to_builder(html: str, builder: TextBuilder) -> None:
-    """Convert ``html`` and append the result to ``builder``."""
-    converter = _Converter(builder)
+def html_to_builder(html: str, builder: TextBuilder, *, quotes: bool = False) -> None:
+    """Convert ``html`` and append the result to ``builder``.
+
+    With ``quotes`` (an email body), each outermost ``<blockquote>`` outside a table is
+    marked as a ``quoted`` region: mail clients put a quoted reply there.  Elsewhere a
+    blockquote is just indented text of the document.
+    """
+    converter = _Converter(builder, quotes)
     converter.feed(html)
     converter.close()
 

@@ -4,8 +4,10 @@ The text starts with the message's own header block (From, Sender, Reply-To, To,
 Subject), decoded per RFC 2047 and unfolded, each header also kept as a structured
 :class:`Header` with its addresses or date.  Then comes the body: the text/plain part if
 there is one, otherwise the HTML part converted to text.  Quoted replies and forwarded
-messages inside the body are marked as regions, so that fields describe this message and
-never the headers quoted in it.
+messages inside the body are marked as regions (:func:`_mark_quotes`; in an HTML body a
+``<blockquote>`` too), so that fields describe this message and never the headers quoted
+in it.  The header lines of a forwarded or quoted message stay text inside its region: they
+are not added to the document's headers, which are this message's own.
 
 Hostile messages (RELIABILITY.md §1.7, catalogue E1–E5) are bounded before the stdlib parser
 sees them: a file larger than ``limits.email_bytes`` is ``failed: too_large`` before it is
@@ -27,6 +29,7 @@ names or any other.
 
 from __future__ import annotations
 
+import bisect
 import datetime
 import email
 import email.policy
@@ -47,12 +50,26 @@ from .html import html_to_builder
 HEADER_ORDER = ("From", "Sender", "Reply-To", "To", "Cc", "Date", "Subject")
 _ADDRESS_HEADERS = {"From", "Sender", "Reply-To", "To", "Cc"}
 
-_QUOTE_INTRO = re.compile(r"^\s*On\b.{4,200}\bwrote:\s*$", re.IGNORECASE)
-_FORWARD_MARK = re.compile(
-    r"^\s*(-{2,}\s*(Forwarded message|Original Message)\s*-{2,}|Begin forwarded message:)\s*$", re.IGNORECASE
+#: The attribution line mail clients write above a quoted reply ("On <date>, <name> wrote:"),
+#: in the forms of the common clients' English, German, French and Spanish locales (common
+#: practice, no source).  A long one may be wrapped over two lines.
+_QUOTE_INTRO = re.compile(
+    r"^\s*(?:On\b.{4,250}\bwrote|Am\b.{4,250}\bschrieb.{0,80}|Le\b.{4,250}\ba\s+écrit\s*|El\b.{4,250}\bescribió)\s*:\s*$",
+    re.IGNORECASE,
 )
-_OUTLOOK_FROM = re.compile(r"^\s*From:\s+\S")
-_OUTLOOK_NEXT = re.compile(r"^\s*(Sent|Date|To|Subject):\s", re.IGNORECASE)
+_INTRO_START = re.compile(r"^\s*(?:On|Am|Le|El)\b")
+#: "<name> wrote:" alone: an attribution only when a quoted block follows it.
+_WEAK_INTRO = re.compile(r"^\s*\S.{0,150}\bwrote:\s*$", re.IGNORECASE)
+#: The line that starts a forwarded message (Gmail, Thunderbird, Apple Mail; common practice, no source).
+_FORWARD_MARK = re.compile(r"^\s*(?:-{2,}\s*Forwarded message\s*-{2,}|Begin forwarded message:)\s*$", re.IGNORECASE)
+#: Outlook's separator above the earlier message's headers, in a reply or a forward.
+_ORIGINAL_MARK = re.compile(r"^\s*-{2,}\s*Original Message\s*-{2,}\s*$", re.IGNORECASE)
+#: A rule drawn above such headers ("________________________________").
+_RULE = re.compile(r"^\s*(?:_{8,}|-{8,})\s*$")
+#: A header line of an earlier message inside the body, the way clients render it.
+_INNER_HEADER = re.compile(r"^\s*(From|Sent|Date|To|Cc|Subject|Reply-To)\s*:\s*(\S.*)?$", re.IGNORECASE)
+#: A subject that says the message is a forward ("Fwd:", "FW:", after any "Re:").
+_FORWARD_SUBJECT = re.compile(r"^\s*(?:re\s*:\s*)*fwd?\s*:", re.IGNORECASE)
 
 
 def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
@@ -81,7 +98,8 @@ def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
     builder.blank()
     body_start = builder.offset
     fallback = _add_body(builder, message, warnings, options)
-    _mark_quotes(builder, body_start)
+    subject = next((builder.text()[h.span.start : h.span.end] for h in builder.headers if h.name == "Subject"), "")
+    _mark_quotes(builder, body_start, forward=bool(_FORWARD_SUBJECT.match(subject)))
     if _has_defects(message, options.limits):
         warnings.append("email_defects")
     # the text is lost when the part the body was taken from was dropped (it is empty now);
@@ -286,7 +304,7 @@ def _add_body(builder: TextBuilder, message: EmailMessage, warnings: list[str], 
         warnings.append("suspect_mojibake")
     content = content.replace("\r\n", "\n").replace("\r", "\n")
     if part.get_content_subtype() == "html":
-        html_to_builder(content, builder)
+        html_to_builder(content, builder, quotes=True)
     else:
         builder.add_text(content.rstrip("\n"))
     return fallback
@@ -428,24 +446,139 @@ def bounded_message(path: Path, limits: Limits) -> Bounded:
     return Bounded(bytes(out), skipped, limit_hit, text_skipped)
 
 
-def _mark_quotes(builder: TextBuilder, body_start: int) -> None:
-    """Mark quoted replies (``> ...``, "On ... wrote:") and forwarded blocks in the body."""
-    lines = [span for span in builder.lines if span.start >= body_start]
+def _mark_quotes(builder: TextBuilder, body_start: int, *, forward: bool = False) -> None:
+    """Mark quoted replies and forwarded messages in the body, so fields describe this message.
+
+    * ``>`` lines (any depth: ``>>`` is a quote inside the quote) are ``quoted``, one region
+      per block; a block may hold blank lines.  Lines of the writer's own between blocks
+      (an inline reply) stay unmarked.
+    * An HTML ``<blockquote>`` (already marked by the HTML converter) is ``quoted``.
+    * An attribution ("On <date>, <name> wrote:") starts the quoted region of the block that
+      follows it; with no marked block after it, the rest of the body is quoted, up to a
+      forwarded message.
+    * A forward mark ("---------- Forwarded message ---------", "Begin forwarded message:")
+      starts a ``forwarded`` region that runs to the end: the forwarded message's own header
+      lines (From:, Date:, Subject:, To:) and everything after them belong to it.
+    * A block of an earlier message's header lines the way Outlook writes them (From: then
+      Sent:/Date:, To:, Subject: ...; under a rule or "-----Original Message-----") starts a
+      region to the end: ``forwarded`` when this message's subject says it is a forward
+      ("Fwd:", "FW:"), otherwise ``quoted``.
+
+    The regions do not overlap; a forward after a quoted reply is a region of its own.
+    """
     text = builder.text()
-    for index, span in enumerate(lines):
-        line = text[span.start : span.end]
-        following = [text[s.start : s.end] for s in lines[index + 1 : index + 4]]
-        if _FORWARD_MARK.match(line):
-            builder.mark("forwarded", span.start)
+    end = builder.offset
+    lines = [span for span in builder.lines if span.start >= body_start]
+    html_quotes = sorted(
+        (region.span for region in builder.regions if region.kind == "quoted" and region.span.start >= body_start),
+        key=lambda span: span.start,
+    )
+    quote_starts = [span.start for span in html_quotes]
+    builder.regions[:] = [region for region in builder.regions if not (region.kind == "quoted" and region.span.start >= body_start)]
+
+    def line(index: int) -> str:
+        return text[lines[index].start : lines[index].end]
+
+    def html_quote(index: int) -> Span | None:
+        at = lines[index].start
+        found = bisect.bisect_right(quote_starts, at) - 1  # the converter's quotes never overlap
+        return html_quotes[found] if found >= 0 and at < html_quotes[found].end else None
+
+    def quoted_block(index: int) -> tuple[int, int] | None:
+        """The block of quoted lines starting at line ``index``: (its end offset, the next line's index)."""
+        found = html_quote(index)
+        if found is not None:
+            after = index
+            while after < len(lines) and lines[after].start < found.end:
+                after += 1
+            return found.end, after
+        if not line(index).lstrip().startswith(">"):
+            return None
+        last = index
+        probe = index + 1
+        while probe < len(lines):
+            current = line(probe)
+            if current.lstrip().startswith(">"):
+                last = probe
+            elif current.strip():
+                break
+            probe += 1
+        return lines[last].end, last + 1
+
+    def next_filled(index: int) -> int | None:
+        return next((i for i in range(index, len(lines)) if line(i).strip()), None)
+
+    index = 0
+    while index < len(lines):
+        current = line(index)
+        start = lines[index].start
+        block = quoted_block(index)
+        if block is not None:
+            builder.mark("quoted", start, block[0])
+            index = block[1]
+            continue
+        if _FORWARD_MARK.match(current):
+            builder.mark("forwarded", start, end)
             return
-        if _QUOTE_INTRO.match(line) or (
-            _OUTLOOK_FROM.match(line) and sum(bool(_OUTLOOK_NEXT.match(f)) for f in following) >= 2
-        ):
-            builder.mark("quoted", span.start)
+        header_rows = _inner_headers(lines, index, text)
+        if _ORIGINAL_MARK.match(current) or header_rows:
+            previous = next((i for i in range(index - 1, -1, -1) if line(i).strip()), None)
+            if header_rows and previous is not None and _RULE.match(line(previous)):
+                start = lines[previous].start  # the rule above the headers belongs to them
+            builder.mark("forwarded" if forward else "quoted", start, end)
             return
-        if line.lstrip().startswith(">"):
-            previous = builder.regions[-1] if builder.regions else None
-            if previous is not None and previous.kind == "quoted" and previous.span.end + 1 >= span.start:
-                builder.regions[-1] = Region("quoted", Span(previous.span.start, span.end))
-            else:
-                builder.mark("quoted", span.start, span.end)
+        intro = _intro_length(lines, index, text)
+        following = next_filled(index + intro) if intro else None
+        block = quoted_block(following) if following is not None else None
+        if block is not None:  # "On ... wrote:" (or "<name> wrote:") and the quote it introduces
+            builder.mark("quoted", start, block[0])
+            index = block[1]
+            continue
+        if intro and _QUOTE_INTRO.match(" ".join(line(i).strip() for i in range(index, index + intro))):
+            # an unmarked quote: the rest of the body, unless a forwarded message follows it
+            stop = next((i for i in range(index + intro, len(lines)) if _FORWARD_MARK.match(line(i))), None)
+            if stop is None:
+                builder.mark("quoted", start, end)
+                return
+            builder.mark("quoted", start, lines[stop - 1].end if stop > index else start)
+            index = stop
+            continue
+        index += 1
+
+
+def _intro_length(lines: list[Span], index: int, text: str) -> int:
+    """How many lines the attribution at ``lines[index]`` takes (0: none): one, or two when wrapped."""
+    first = text[lines[index].start : lines[index].end]
+    if not first.strip() or len(first) > 300:
+        return 0
+    if _QUOTE_INTRO.match(first) or _WEAK_INTRO.match(first):
+        return 1
+    if index + 1 < len(lines) and _INTRO_START.match(first):
+        both = first.strip() + " " + text[lines[index + 1].start : lines[index + 1].end].strip()
+        if len(both) <= 300 and _QUOTE_INTRO.match(both):
+            return 2
+    return 0
+
+
+def _inner_headers(lines: list[Span], index: int, text: str) -> int:
+    """The number of header lines of an earlier message starting at ``lines[index]`` (0: none).
+
+    An earlier message's headers start with ``From:`` and go on, within the next four
+    lines, with at least two more of Sent/Date/To/Cc/Subject, one of them ``Sent:`` or
+    ``Subject:`` (every client writes one of those; a form's "From: / To: / Date:" lines
+    alone are not a message's headers).
+    """
+    found = _INNER_HEADER.match(text[lines[index].start : lines[index].end])
+    if found is None or found.group(1).lower() != "from" or not found.group(2):
+        return 0
+    names = []
+    count = 1
+    for span in lines[index + 1 : index + 6]:
+        row = _INNER_HEADER.match(text[span.start : span.end])
+        if row is None:
+            break
+        names.append(row.group(1).lower())
+        count += 1
+    if len(names) >= 2 and {"sent", "subject"} & set(names):
+        return count
+    return 0

@@ -1,7 +1,11 @@
 """Read a schema file (YAML or JSON), check it against the contract, build a TargetSchema.
 
-Every problem is reported as one :class:`~structurize.errors.SchemaError` naming the file,
-the place in the file (``fields[3].extract.as``) and, for YAML, the line.  The file is data,
+Every problem of the file is reported, each as one line naming the file, the place in the
+file (``fields[3].extract.as``) and the line, in file order, all in one
+:class:`~structurize.errors.SchemaError` (its ``lines``).  Checking stops early only where a
+problem makes the rest meaningless (not YAML or JSON, values that are not plain data, a top
+level that is not a mapping, no list of fields).  A field's ``extract.as`` must be a kind
+that can give a value of its Table Schema type (:data:`~.model.KIND_TYPES`).  The file is data,
 never code: YAML is read with the safe loader only, and a file that would expand into a
 huge tree through aliases is refused.
 """
@@ -28,6 +32,7 @@ from .model import (
     DATE_ORDERS,
     DEFAULT_FUZZY_DISTANCE,
     DEFAULT_REVIEW_BELOW,
+    KIND_TYPES,
     KINDS,
     TYPES,
     FieldHints,
@@ -97,10 +102,10 @@ def load_schema(path: str | Path) -> TargetSchema:
     raw = _read_bounded(path, source)
     text = _decode(raw, source)
     if path.suffix.lower() == ".json":
-        data, locate = _parse_json(text, source)
+        data, locate, found = _parse_json(text, source)
     else:
-        data, locate = _parse_yaml(text, source)
-    return schema_from_descriptor(data, source=source, locate=locate)
+        data, locate, found = _parse_yaml(text, source)
+    return _build(data, source, locate, found)
 
 
 def _read_bounded(path: Path, source: str) -> bytes:
@@ -156,9 +161,24 @@ def schema_from_descriptor(
     data: Any, *, source: str = "<schema>", locate: Locate | None = None
 ) -> TargetSchema:
     """Validate an already-parsed descriptor (a dict) and build the schema."""
-    checker = _Checker(source, locate or (lambda path: ""))
-    _check_values(data, checker)
-    return checker.schema(data)
+    return _build(data, source, locate or (lambda path: ""), [])
+
+
+def _build(data: Any, source: str, locate: Locate, found: list[tuple[int, SchemaError]]) -> TargetSchema:
+    """Check everything that can be checked, then raise one error naming every problem.
+
+    ``found`` are problems the parser already met (duplicate keys), with their lines.
+    Checks stop early only where a problem makes the rest meaningless: values that are
+    not plain data, a top level that is not a mapping, no list of fields.
+    """
+    checker = _Checker(source, locate)
+    for line, error in found:
+        checker.add(error, line)
+    if not _check_values(data, checker):
+        raise checker.collected()  # the checks below assume plain, printable data
+    schema = checker.schema(data)
+    checker.stop_if_any()
+    return schema
 
 
 #: Integers at or above this size cannot even be printed (Python's 4,300-digit limit, §1.9).
@@ -166,62 +186,64 @@ _HUGE = 10**4000
 _PLAIN = (str, bool, float, type(None), dt.date)
 
 
-def _check_values(data: Any, checker: _Checker) -> None:
-    """Only JSON-like data: string keys, bounded nesting, printable numbers (iterative, any depth)."""
+def _check_values(data: Any, checker: _Checker) -> bool:
+    """Only JSON-like data: string keys, bounded nesting, printable numbers (iterative, any depth).
+
+    Every offending value is reported; nothing under it is looked at.  True when there was none.
+    """
+    before = len(checker.problems)
     stack: list[tuple[Any, tuple[Any, ...]]] = [(data, ())]
     while stack:
         value, path = stack.pop()
         if len(path) > MAX_DEPTH:
-            raise checker.fail(path[:MAX_DEPTH], f"nesting is deeper than {MAX_DEPTH} levels")
+            checker.report(path[:MAX_DEPTH], f"nesting is deeper than {MAX_DEPTH} levels")
+            continue
         if isinstance(value, dict):
+            items = []
             for key, item in value.items():
                 # YAML may read keys as booleans (flag aliases: true/false) or numbers
                 if not isinstance(key, (str, bool, int, float, type(None))):
-                    raise checker.fail(path, f"keys must be strings, not {type(key).__name__}")
-                if isinstance(key, int) and not -_HUGE < key < _HUGE:
-                    raise checker.fail(path, "number has too many digits")
-                stack.append((item, (*path, key)))
+                    checker.report(path, f"keys must be strings, not {type(key).__name__}")
+                elif isinstance(key, int) and not -_HUGE < key < _HUGE:
+                    checker.report(path, "number has too many digits")
+                else:
+                    items.append((item, (*path, key)))
+            stack.extend(reversed(items))
         elif isinstance(value, (list, tuple)):
-            stack.extend((item, (*path, index)) for index, item in enumerate(value))
+            stack.extend(reversed([(item, (*path, index)) for index, item in enumerate(value)]))
         elif isinstance(value, int):
             if not -_HUGE < value < _HUGE:
-                raise checker.fail(path, "number has too many digits")
+                checker.report(path, "number has too many digits")
         elif not isinstance(value, _PLAIN):
-            raise checker.fail(path, f"unsupported value of type {type(value).__name__}")
+            checker.report(path, f"unsupported value of type {type(value).__name__}")
+    return len(checker.problems) == before
 
 
 # --- parsing -------------------------------------------------------------------------
 
 
-class _DuplicateKey(Exception):
-    def __init__(self, key: str) -> None:
-        super().__init__(key)
-        self.key = key
+def _parse_json(text: str, source: str) -> tuple[Any, Locate, list[tuple[int, SchemaError]]]:
+    duplicates: list[str] = []
 
-
-def _parse_json(text: str, source: str) -> tuple[Any, Locate]:
-    def no_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+    def note_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
         result: dict[str, Any] = {}
         for key, value in pairs:
             if key in result:
-                raise _DuplicateKey(key)
-            result[key] = value
+                duplicates.append(key)
+            result[key] = value  # the last one counts, as in any JSON reader
         return result
 
-    duplicate: str | None = None
     try:
-        data = json.loads(text, object_pairs_hook=no_duplicates)
+        data = json.loads(text, object_pairs_hook=note_duplicates)
     except json.JSONDecodeError as exc:
         raise SchemaError(source, f"line {exc.lineno}, column {exc.colno}", f"not valid JSON ({exc.msg})") from None
     except RecursionError:
         raise SchemaError(source, "", "nesting is too deep") from None
-    except _DuplicateKey as exc:
-        data, duplicate = None, exc.key  # the layout scan below names the key and its line
     except ValueError as exc:  # a number over Python's 4,300-digit limit, for one
         raise SchemaError(source, "", f"not valid JSON ({_one_line(exc)})") from None
-    lines = _json_layout(text, source)  # duplicates and depth, with lines
-    if duplicate is not None:
-        raise SchemaError(source, "", f"duplicate key {duplicate!r}")
+    lines, found = _json_layout(text, source)  # duplicates (with their lines) and depth
+    if duplicates and not found:  # the layout scan missed one: still refuse it
+        found = [(0, SchemaError(source, "", f"duplicate key {key!r}")) for key in dict.fromkeys(duplicates)]
 
     def locate(path: tuple[Any, ...]) -> str:
         for end in range(len(path), 0, -1):
@@ -230,18 +252,19 @@ def _parse_json(text: str, source: str) -> tuple[Any, Locate]:
                 return f"line {line}"
         return ""
 
-    return data, locate
+    return data, locate, found
 
 
 #: One JSON token of a valid document: a string, a punctuation mark, or a bare literal.
 _JSON_TOKEN = re.compile(r'"(?:[^"\\]|\\.)*"|[{}\[\]:,]|[^\s{}\[\]:,"]+')
 
 
-def _json_layout(text: str, source: str) -> dict[tuple[Any, ...], int]:
-    """The line of every value of a valid JSON text, by path; refuses duplicate keys and deep nesting.
+def _json_layout(text: str, source: str) -> tuple[dict[tuple[Any, ...], int], list[tuple[int, SchemaError]]]:
+    """The line of every value of a valid JSON text, by path, and every duplicate key; refuses deep nesting.
 
     Iterative (no recursion), so any nesting depth gives a clean error.
     """
+    found: list[tuple[int, SchemaError]] = []
     starts = [0] + [m.end() for m in re.finditer("\n", text)]
 
     def line_of(offset: int) -> int:
@@ -285,13 +308,13 @@ def _json_layout(text: str, source: str) -> dict[tuple[Any, ...], int]:
             except ValueError:
                 key = token
             if key in frame[4]:
-                raise SchemaError(source, f"line {line_of(offset)}", f"duplicate key {key!r}")
+                found.append((line_of(offset), SchemaError(source, f"line {line_of(offset)}", f"duplicate key {key!r}")))
             frame[4].add(key)
             frame[2] = key
             frame[3] = False
         else:
             lines.setdefault(here(), line_of(offset))
-    return lines
+    return lines, found
 
 
 def _one_line(text: object) -> str:
@@ -302,7 +325,7 @@ def _mark(mark: Any) -> str:
     return f"line {mark.line + 1}, column {mark.column + 1}" if mark is not None else ""
 
 
-def _parse_yaml(text: str, source: str) -> tuple[Any, Locate]:
+def _parse_yaml(text: str, source: str) -> tuple[Any, Locate, list[tuple[int, SchemaError]]]:
     _scan_yaml_events(text, source)
     try:
         root = yaml.compose(text, Loader=yaml.SafeLoader)
@@ -314,7 +337,7 @@ def _parse_yaml(text: str, source: str) -> tuple[Any, Locate]:
         raise SchemaError(source, "", "nesting is too deep") from None
     if root is None:
         raise SchemaError(source, "", "file is empty")
-    _check_node_tree(root, source)
+    found = _check_node_tree(root, source)
     try:
         data = yaml.SafeLoader("").construct_document(root)
     except yaml.constructor.ConstructorError as exc:
@@ -328,7 +351,7 @@ def _parse_yaml(text: str, source: str) -> tuple[Any, Locate]:
         node = _node_at(root, path)
         return f"line {node.start_mark.line + 1}" if node is not None else ""
 
-    return data, locate
+    return data, locate, found
 
 
 def _scan_yaml_events(text: str, source: str) -> None:
@@ -366,9 +389,10 @@ def _scan_yaml_events(text: str, source: str) -> None:
         raise SchemaError(source, "", "nesting is too deep") from None
 
 
-def _check_node_tree(root: yaml.Node, source: str) -> None:
-    """Refuse alias bombs and duplicate mapping keys before anything is constructed."""
+def _check_node_tree(root: yaml.Node, source: str) -> list[tuple[int, SchemaError]]:
+    """Refuse alias bombs before anything is constructed; return every duplicate mapping key."""
     sizes: dict[int, int] = {}
+    found: list[tuple[int, SchemaError]] = []
 
     def size(node: yaml.Node, depth: int) -> int:
         if depth > 100:
@@ -381,10 +405,9 @@ def _check_node_tree(root: yaml.Node, source: str) -> None:
             seen: set[str] = set()
             for key, value in node.value:
                 if isinstance(key, yaml.ScalarNode):
-                    if key.value in seen:
-                        raise SchemaError(
-                            source, f"line {key.start_mark.line + 1}", f"duplicate key {key.value!r}"
-                        )
+                    if key.value in seen and id(node) not in sizes:
+                        line = key.start_mark.line + 1
+                        found.append((line, SchemaError(source, f"line {line}", f"duplicate key {key.value!r}")))
                     seen.add(key.value)
                 total += size(key, depth + 1) + size(value, depth + 1)
         elif isinstance(node, yaml.SequenceNode):
@@ -397,7 +420,15 @@ def _check_node_tree(root: yaml.Node, source: str) -> None:
         sizes[id(node)] = total
         return total
 
-    size(root, 0)
+    try:
+        size(root, 0)
+    except SchemaError as error:  # the duplicates found before it are problems too
+        listed = [item for _, item in sorted(found, key=lambda pair: pair[0])]
+        if len(listed) >= MAX_PROBLEMS:
+            hidden = len(listed) - (MAX_PROBLEMS - 2)
+            listed = [*listed[: MAX_PROBLEMS - 2], SchemaError(source, "", f"{hidden} more problems not listed")]
+        raise SchemaError.several([*listed, error]) from None
+    return found
 
 
 def _node_at(root: yaml.Node, path: tuple[Any, ...]) -> yaml.Node | None:
@@ -439,27 +470,89 @@ def _path_text(path: tuple[Any, ...]) -> str:
     return out
 
 
+#: At most this many problems are listed; one more line says how many were left out.
+MAX_PROBLEMS = 50
+
+
 class _Checker:
+    """Checks a descriptor and collects every problem with the line it is on.
+
+    :meth:`fail` builds the error for a place.  A check that cannot go on raises it; the
+    caller records it with :meth:`attempt` (or :meth:`report`) and goes on with the next
+    independent check, so that one run lists every problem of the file, in file order.
+    """
+
     def __init__(self, source: str, locate: Locate) -> None:
         self.source = source
         self.locate = locate
+        self.problems: list[tuple[int, int, SchemaError]] = []
 
     def fail(self, path: tuple[Any, ...], message: str) -> SchemaError:
         where = _path_text(path)
         line = self.locate(path) if path else ""
         if line:
             where = f"{where} ({line})" if where else line
-        return SchemaError(self.source, where, message)
+        error = SchemaError(self.source, where, message)
+        error._line = self._line_number(path)  # type: ignore[attr-defined]  # the order problems are listed in
+        return error
+
+    def _line_number(self, path: tuple[Any, ...]) -> int:
+        """The line of ``path``, or of the nearest enclosing place that has one (0: none)."""
+        for end in range(len(path), 0, -1):
+            found = re.match(r"line (\d+)", self.locate(path[:end]))
+            if found:
+                return int(found.group(1))
+        return 0
+
+    # recording
+
+    def add(self, error: SchemaError, line: int) -> None:
+        self.problems.append((line, len(self.problems), error))
+
+    def record(self, error: SchemaError) -> None:
+        self.add(error, getattr(error, "_line", 0))
+
+    def report(self, path: tuple[Any, ...], message: str) -> None:
+        self.record(self.fail(path, message))
+
+    def attempt(self, check: Callable[..., Any], *args: Any, default: Any = None, **kwargs: Any) -> Any:
+        """``check(*args, **kwargs)``; a :class:`SchemaError` it raises is recorded and ``default`` returned."""
+        try:
+            return check(*args, **kwargs)
+        except SchemaError as error:
+            self.record(error)
+            return default
+
+    def fatal(self, path: tuple[Any, ...], message: str) -> SchemaError:
+        """A problem after which nothing else can be checked: it, with every problem found so far."""
+        self.report(path, message)
+        return self.collected()
+
+    def stop_if_any(self) -> None:
+        if self.problems:
+            raise self.collected()
+
+    def collected(self) -> SchemaError:
+        ordered = [error for _, _, error in sorted(self.problems, key=lambda item: item[:2])]
+        unique = list({error.args[0]: error for error in reversed(ordered)}.values())[::-1]
+        if len(unique) > MAX_PROBLEMS:
+            hidden = len(unique) - MAX_PROBLEMS
+            unique = [*unique[:MAX_PROBLEMS], SchemaError(self.source, "", f"{hidden} more problems not listed")]
+        return SchemaError.several(unique)
+
+    # shapes
 
     def mapping(self, value: Any, path: tuple[Any, ...]) -> dict[str, Any]:
+        """``value`` if it is a mapping (raises if not); keys that are not strings are reported and left out."""
         if not isinstance(value, dict):
             raise self.fail(path, f"must be a mapping, not {_type_name(value)}")
-        for key in value:
-            if not isinstance(key, str):
-                raise self.fail(path, f"key {key!r} must be a string")
-        return value
+        odd = [key for key in value if not isinstance(key, str)]
+        for key in odd:
+            self.report(path, f"key {key!r} must be a string")
+        return {key: item for key, item in value.items() if isinstance(key, str)} if odd else value
 
     def strings(self, value: Any, path: tuple[Any, ...], *, allow_single: bool = True) -> tuple[str, ...]:
+        """The non-empty strings of a list (raises if it is not a list); each bad item is reported."""
         if isinstance(value, str) and allow_single:
             value = [value]
         if not isinstance(value, list):
@@ -467,14 +560,16 @@ class _Checker:
         out = []
         for index, item in enumerate(value):
             if isinstance(item, bool):
-                raise self.fail(
+                self.report(
                     path + (index,),
                     f"{item!r} was read as a boolean; quote it (YAML reads yes/no/on/off as booleans)",
                 )
+                continue
             if isinstance(item, (int, float)):
                 item = str(item)
             if not isinstance(item, str) or not item.strip():
-                raise self.fail(path + (index,), "must be a non-empty string")
+                self.report(path + (index,), "must be a non-empty string")
+                continue
             out.append(item.strip())
         return tuple(out)
 
@@ -485,71 +580,78 @@ class _Checker:
                 continue
             guess = _misspelling_of(key, known)
             if guess is not None:
-                raise self.fail(path + (key,), f"{key!r} is not a known {what} key (did you mean {guess!r}?)")
+                self.report(path + (key,), f"{key!r} is not a known {what} key (did you mean {guess!r}?)")
 
     def unknown_keys(self, block: dict[str, Any], allowed: tuple[str, ...], path: tuple[Any, ...], what: str) -> None:
         for key in block:
             if key not in allowed:
-                raise self.fail(path + (key,), f"{key!r} is not a known {what} key{_suggest(key, allowed)}")
+                self.report(path + (key,), f"{key!r} is not a known {what} key{_suggest(key, allowed)}")
 
     # schema level
 
-    def schema(self, data: Any) -> TargetSchema:
+    def schema(self, data: Any) -> TargetSchema | None:
+        """The schema, or None when a problem was recorded (the caller raises them all)."""
+        if not isinstance(data, dict):
+            raise self.fatal((), f"must be a mapping, not {_type_name(data)}")
         data = self.mapping(data, ())
         self.misspelt_keys(data, SCHEMA_KEYS, (), "schema")
+        top = self.attempt(self.mapping, data.get("extract") or {}, ("extract",), default={})
+        self.unknown_keys(top, SCHEMA_EXTRACT_KEYS, ("extract",), "extract")
+        date_order = self.attempt(self.date_order, top.get("date_order"))
+        review_below = self.attempt(self.review_below, top.get("review_below", DEFAULT_REVIEW_BELOW), default=DEFAULT_REVIEW_BELOW)
+        fuzzy = self.attempt(
+            self.fuzzy, top.get("fuzzy_distance", DEFAULT_FUZZY_DISTANCE), ("extract", "fuzzy_distance"), default=DEFAULT_FUZZY_DISTANCE
+        )
+        time_limit = self.attempt(self.time_limit, top.get("time_limit"))
+        memory_limit = self.attempt(self.memory_limit, top.get("memory_limit"))
+        missing = ("",)
+        if data.get("missingValues"):
+            missing = self.attempt(self.strings, data["missingValues"], ("missingValues",), allow_single=False, default=("",))
         if "fields" not in data:
-            raise self.fail((), "missing 'fields'")
+            raise self.fatal((), "missing 'fields'")
         raw_fields = data["fields"]
         if not isinstance(raw_fields, list) or not raw_fields:
-            raise self.fail(("fields",), "must be a non-empty list of fields")
-        top = self.mapping(data.get("extract") or {}, ("extract",))
-        self.unknown_keys(top, SCHEMA_EXTRACT_KEYS, ("extract",), "extract")
-        date_order = top.get("date_order")
-        if date_order is not None:
-            if not isinstance(date_order, str) or date_order.upper() not in DATE_ORDERS:
-                raise self.fail(("extract", "date_order"), f"must be one of {', '.join(DATE_ORDERS)}")
-            date_order = date_order.upper()
-        review_below = top.get("review_below", DEFAULT_REVIEW_BELOW)
-        if isinstance(review_below, bool) or not isinstance(review_below, (int, float)) or not 0 <= review_below <= 1:
-            raise self.fail(("extract", "review_below"), "must be a number between 0 and 1")
-        fuzzy = self.fuzzy(top.get("fuzzy_distance", DEFAULT_FUZZY_DISTANCE), ("extract", "fuzzy_distance"))
-        time_limit = top.get("time_limit")
-        if time_limit is not None and (isinstance(time_limit, bool) or not isinstance(time_limit, (int, float)) or not 0 < time_limit <= 3600):
-            raise self.fail(("extract", "time_limit"), "must be a number of seconds, above 0 and at most 3600")
-        memory_limit = top.get("memory_limit")
-        if memory_limit is not None and (isinstance(memory_limit, bool) or not isinstance(memory_limit, int) or not 256 <= memory_limit <= 65536):
-            raise self.fail(("extract", "memory_limit"), "must be a whole number of megabytes from 256 to 65536")
-        missing = self.strings(data.get("missingValues", [""]), ("missingValues",), allow_single=False) if data.get("missingValues") else ("",)
+            raise self.fatal(("fields",), "must be a non-empty list of fields")
 
         fields: list[FieldSpec] = []
         seen: dict[str, int] = {}
+        names: list[str] = []
         for index, raw in enumerate(raw_fields):
             name = raw.get("name") if isinstance(raw, dict) else None
             if isinstance(name, str):
+                names.append(name)
                 # names that differ only in case, spacing or Unicode form collide in
                 # spreadsheets and case-insensitive tools: refuse them (catalogue S4)
                 folded = normalise_name(name)
                 if folded in seen:
                     first = seen[folded]
                     where = self.locate(("fields", first, "name"))
-                    raise self.fail(
+                    self.report(
                         ("fields", index, "name"),
                         f"duplicate field name {name!r} (same as fields[{first}]): {raw_fields[first]['name']!r}"
                         + (f" on {where}" if where else "")
                         + "; names are compared ignoring case and spaces",
                     )
-                seen[folded] = index
-            fields.append(self.field(raw, ("fields", index), fuzzy))
+                else:
+                    seen[folded] = index
+            spec = self.field(raw, ("fields", index), fuzzy)
+            if spec is not None:
+                fields.append(spec)
 
-        primary = data.get("primaryKey") or ()
+        primary: Any = data.get("primaryKey") or ()
         if isinstance(primary, str):
             primary = (primary,)
-        primary = self.strings(list(primary), ("primaryKey",), allow_single=False) if primary else ()
-        names = [spec.name for spec in fields]
+        if isinstance(primary, (list, tuple)):
+            primary = self.attempt(self.strings, list(primary), ("primaryKey",), allow_single=False, default=())
+        else:
+            self.report(("primaryKey",), f"must be a field name or a list of field names, not {_type_name(primary)}")
+            primary = ()
         for key in primary:
             if key not in names:
-                raise self.fail(("primaryKey",), f"{key!r} is not a field{_suggest(key, names)}")
+                self.report(("primaryKey",), f"{key!r} is not a field{_suggest(key, names)}")
 
+        if self.problems:
+            return None
         name = data.get("name") or Path(self.source).stem
         return TargetSchema(
             name=str(name),
@@ -566,6 +668,28 @@ class _Checker:
             descriptor=data,
         )
 
+    def date_order(self, value: Any) -> str | None:
+        if value is None:
+            return None
+        if not isinstance(value, str) or value.upper() not in DATE_ORDERS:
+            raise self.fail(("extract", "date_order"), f"must be one of {', '.join(DATE_ORDERS)}")
+        return value.upper()
+
+    def review_below(self, value: Any) -> float:
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 <= value <= 1:
+            raise self.fail(("extract", "review_below"), "must be a number between 0 and 1")
+        return value
+
+    def time_limit(self, value: Any) -> float | None:
+        if value is not None and (isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 < value <= 3600):
+            raise self.fail(("extract", "time_limit"), "must be a number of seconds, above 0 and at most 3600")
+        return value
+
+    def memory_limit(self, value: Any) -> int | None:
+        if value is not None and (isinstance(value, bool) or not isinstance(value, int) or not 256 <= value <= 65536):
+            raise self.fail(("extract", "memory_limit"), "must be a whole number of megabytes from 256 to 65536")
+        return value
+
     def fuzzy(self, value: Any, path: tuple[Any, ...]) -> int:
         if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value <= 5:
             raise self.fail(path, "must be a whole number from 0 to 5")
@@ -573,31 +697,48 @@ class _Checker:
 
     # field level
 
-    def field(self, raw: Any, path: tuple[Any, ...], default_fuzzy: int) -> FieldSpec:
-        raw = self.mapping(raw, path)
+    def field(self, raw: Any, path: tuple[Any, ...], default_fuzzy: int) -> FieldSpec | None:
+        """The field, or None when a problem was recorded; every part is checked either way."""
+        before = len(self.problems)
+        raw = self.attempt(self.mapping, raw, path)
+        if raw is None:
+            return None
         self.misspelt_keys(raw, FIELD_KEYS, path, "field")
         name = raw.get("name")
         if not isinstance(name, str) or not name.strip():
-            raise self.fail(path + ("name",), "every field needs a non-empty string 'name'")
-        self.field_name(name, path + ("name",))
+            self.report(path + ("name",), "every field needs a non-empty string 'name'")
+        else:
+            self.attempt(self.field_name, name, path + ("name",))
         type_ = raw.get("type", "any")
-        if type_ not in TYPES:
+        known_type: str | None = type_ if isinstance(type_, str) and type_ in TYPES else None
+        if known_type is None:
             if isinstance(type_, str) and type_ in ("object", "array", "list", "time", "yearmonth", "duration", "geopoint", "geojson"):
-                raise self.fail(path + ("type",), f"type {type_!r} is not supported as an extraction target")
-            raise self.fail(path + ("type",), f"{type_!r} is not a Table Schema type{_suggest(str(type_), TYPES)}")
-        constraints = self.constraints(raw.get("constraints") or {}, path + ("constraints",), type_)
-        hints = self.hints(raw.get("extract") or {}, path + ("extract",), type_, constraints, default_fuzzy)
+                self.report(path + ("type",), f"type {type_!r} is not supported as an extraction target")
+            else:
+                self.report(path + ("type",), f"{type_!r} is not a Table Schema type{_suggest(str(type_), TYPES)}")
+        constraints, enum_broken = self.constraints(raw.get("constraints") or {}, path + ("constraints",), known_type)
+        hints = self.hints(raw.get("extract") or {}, path + ("extract",), known_type, constraints, default_fuzzy, enum_broken)
         missing = raw.get("missingValues")
+        if missing is not None:
+            missing = self.attempt(self.strings, missing, path + ("missingValues",), allow_single=False)
+        true_values = FieldSpec.true_values
+        if "trueValues" in raw:
+            true_values = self.attempt(self.strings, raw["trueValues"], path + ("trueValues",), default=true_values)
+        false_values = FieldSpec.false_values
+        if "falseValues" in raw:
+            false_values = self.attempt(self.strings, raw["falseValues"], path + ("falseValues",), default=false_values)
+        if len(self.problems) > before or hints is None or known_type is None:
+            return None
         return FieldSpec(
             name=name,
-            type=type_,
+            type=known_type,
             title=str(raw.get("title") or ""),
             description=str(raw.get("description") or ""),
             format=str(raw.get("format") or "default"),
             constraints=constraints,
-            missing_values=self.strings(missing, path + ("missingValues",), allow_single=False) if missing is not None else None,
-            true_values=self.strings(raw["trueValues"], path + ("trueValues",)) if "trueValues" in raw else FieldSpec.true_values,
-            false_values=self.strings(raw["falseValues"], path + ("falseValues",)) if "falseValues" in raw else FieldSpec.false_values,
+            missing_values=missing,
+            true_values=true_values,
+            false_values=false_values,
             hints=hints,
             descriptor=raw,
         )
@@ -621,25 +762,31 @@ class _Checker:
         if normalise_name(name) in RESERVED_NAMES:
             raise self.fail(path, f"field name {name!r} is the name of the table's own first column; rename the field")
 
-    def constraints(self, raw: Any, path: tuple[Any, ...], type_: str) -> dict[str, Any]:
-        raw = self.mapping(raw, path)
-        for key, value in raw.items():
-            if key not in CONSTRAINT_KEYS:
-                if key == "jsonSchema":
-                    raise self.fail(path + (key,), "constraint 'jsonSchema' is not supported for extraction targets")
-                raise self.fail(path + (key,), f"{key!r} is not a known constraint{_suggest(key, CONSTRAINT_KEYS)}")
-            if key in ("required", "unique") and not isinstance(value, bool):
-                raise self.fail(path + (key,), "must be true or false")
-            if key == "enum" and (not isinstance(value, list) or not value):
-                raise self.fail(path + (key,), "must be a non-empty list")
-            if key == "pattern":
-                self.regex(value, path + (key,))
-            if key in ("minLength", "maxLength") and (isinstance(value, bool) or not isinstance(value, int) or value < 0):
-                raise self.fail(path + (key,), "must be a whole number, 0 or more")
-            if key in ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum"):
-                if type_ in ("number", "integer", "year") and (isinstance(value, bool) or not isinstance(value, (int, float))):
-                    raise self.fail(path + (key,), f"must be a number for a {type_} field")
-        return dict(raw)
+    def constraints(self, raw: Any, path: tuple[Any, ...], type_: str | None) -> tuple[dict[str, Any], bool]:
+        """The constraints that are valid, and whether an ``enum`` was given but is not (each problem recorded)."""
+        raw = self.attempt(self.mapping, raw, path)
+        if raw is None:
+            return {}, True
+        valid = {key: value for key, value in raw.items() if self.attempt(self.constraint, key, value, path + (key,), type_, default=False)}
+        return valid, "enum" in raw and "enum" not in valid
+
+    def constraint(self, key: str, value: Any, path: tuple[Any, ...], type_: str | None) -> bool:
+        if key not in CONSTRAINT_KEYS:
+            if key == "jsonSchema":
+                raise self.fail(path, "constraint 'jsonSchema' is not supported for extraction targets")
+            raise self.fail(path, f"{key!r} is not a known constraint{_suggest(key, CONSTRAINT_KEYS)}")
+        if key in ("required", "unique") and not isinstance(value, bool):
+            raise self.fail(path, "must be true or false")
+        if key == "enum" and (not isinstance(value, list) or not value):
+            raise self.fail(path, "must be a non-empty list")
+        if key == "pattern":
+            self.regex(value, path)
+        if key in ("minLength", "maxLength") and (isinstance(value, bool) or not isinstance(value, int) or value < 0):
+            raise self.fail(path, "must be a whole number, 0 or more")
+        if key in ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum"):
+            if type_ in ("number", "integer", "year") and (isinstance(value, bool) or not isinstance(value, (int, float))):
+                raise self.fail(path, f"must be a number for a {type_} field")
+        return True
 
     def regex(self, value: Any, path: tuple[Any, ...]) -> UserPattern:
         """A user pattern, compiled for matching with a time limit (``structurize.patterns``)."""
@@ -651,55 +798,80 @@ class _Checker:
             raise self.fail(path, f"not a valid regular expression ({_one_line(exc)})") from None
 
     def hints(
-        self, raw: Any, path: tuple[Any, ...], type_: str, constraints: dict[str, Any], default_fuzzy: int
-    ) -> FieldHints:
-        raw = self.mapping(raw, path)
+        self,
+        raw: Any,
+        path: tuple[Any, ...],
+        type_: str | None,
+        constraints: dict[str, Any],
+        default_fuzzy: int,
+        enum_broken: bool,
+    ) -> FieldHints | None:
+        """The field's hints, or None when its kind is unknown (each problem recorded).
+
+        ``type_`` is None when the field's type is not valid: checks that depend on it
+        (the default kind, whether the kind fits) are left out rather than guessed.
+        """
+        raw = self.attempt(self.mapping, raw, path)
+        if raw is None:
+            return None
         self.unknown_keys(raw, FIELD_EXTRACT_KEYS, path, "extract")
         kind = raw.get("as")
         if kind is None:
-            kind = DEFAULT_KIND_FOR_TYPE.get(type_, "choice" if constraints.get("enum") else "text")
-        elif kind not in KINDS:
-            raise self.fail(path + ("as",), f"{kind!r} is not a kind{_suggest(str(kind), KINDS)}")
-        cues = self.strings(raw.get("cues", []), path + ("cues",))
-        pattern = self.regex(raw["pattern"], path + ("pattern",)) if raw.get("pattern") else None
-        if pattern is None and kind == "identifier" and constraints.get("pattern"):
-            pattern = self.regex(constraints["pattern"], path)
-        fuzzy = self.fuzzy(raw.get("fuzzy_distance", default_fuzzy), path + ("fuzzy_distance",))
+            if type_ is not None:
+                kind = DEFAULT_KIND_FOR_TYPE.get(type_, "choice" if constraints.get("enum") else "text")
+        elif not isinstance(kind, str) or kind not in KINDS:
+            self.report(path + ("as",), f"{kind!r} is not a kind{_suggest(str(kind), KINDS)}")
+            kind = None
+        elif type_ is not None and type_ not in KIND_TYPES[kind]:
+            fitting = ", ".join(name for name in KINDS if type_ in KIND_TYPES[name])
+            self.report(
+                path + ("as",),
+                f"kind {kind!r} cannot give a {type_} value; for type {type_} use one of: {fitting} (or change the type)",
+            )
+        cues = self.attempt(self.strings, raw.get("cues", []), path + ("cues",), default=())
+        pattern = self.attempt(self.regex, raw["pattern"], path + ("pattern",)) if raw.get("pattern") else None
+        if pattern is None and kind == "identifier" and constraints.get("pattern") and not raw.get("pattern"):
+            pattern = self.attempt(self.regex, constraints["pattern"], path)
+        fuzzy = self.attempt(self.fuzzy, raw.get("fuzzy_distance", default_fuzzy), path + ("fuzzy_distance",), default=default_fuzzy)
         aliases: list[tuple[str, tuple[str, ...]]] = []
         true_variants: tuple[str, ...] = ()
         false_variants: tuple[str, ...] = ()
-        raw_aliases = raw.get("aliases")
-        if raw_aliases is not None:
-            block = raw_aliases
-            if not isinstance(block, dict):
-                raise self.fail(path + ("aliases",), f"must be a mapping, not {_type_name(block)}")
-            if type_ == "boolean" or kind == "flag":
-                for key, variants in block.items():
-                    side = _flag_side(key)
-                    if side is None:
-                        raise self.fail(path + ("aliases", key), f"flag alias keys are true and false, not {key!r}")
-                    found = self.strings(variants, path + ("aliases", key))
-                    if side:
-                        true_variants += found
-                    else:
-                        false_variants += found
-            else:
-                enum = constraints.get("enum")
-                for key, variants in block.items():
-                    canonical = str(key)
-                    if enum is not None and canonical not in [str(item) for item in enum]:
-                        raise self.fail(
-                            path + ("aliases", key),
-                            f"alias key {canonical!r} is not in constraints.enum{_suggest(canonical, [str(e) for e in enum])}",
-                        )
-                    aliases.append((canonical, self.strings(variants, path + ("aliases", key))))
+        before = len(self.problems)
+        block = raw.get("aliases")
+        if block is not None and not isinstance(block, dict):
+            self.report(path + ("aliases",), f"must be a mapping, not {_type_name(block)}")
+        elif block is not None and (type_ == "boolean" or kind == "flag"):
+            for key, variants in block.items():
+                side = _flag_side(key)
+                if side is None:
+                    self.report(path + ("aliases", key), f"flag alias keys are true and false, not {key!r}")
+                    continue
+                found = self.attempt(self.strings, variants, path + ("aliases", key), default=())
+                if side:
+                    true_variants += found
+                else:
+                    false_variants += found
+        elif block is not None and kind is not None:  # an unknown kind: how to read the keys is unknown too
+            enum = constraints.get("enum")
+            for key, variants in block.items():
+                canonical = str(key)
+                if enum is not None and canonical not in [str(item) for item in enum]:
+                    self.report(
+                        path + ("aliases", key),
+                        f"alias key {canonical!r} is not in constraints.enum{_suggest(canonical, [str(e) for e in enum])}",
+                    )
+                    continue
+                aliases.append((canonical, self.attempt(self.strings, variants, path + ("aliases", key), default=())))
+        aliases_broken = len(self.problems) > before
         if kind == "choice":
             known = {canonical for canonical, _ in aliases}
             for value in constraints.get("enum") or ():
                 if str(value) not in known:
                     aliases.append((str(value), ()))
-            if not aliases:
-                raise self.fail(path + ("as",), "a choice field needs constraints.enum or extract.aliases")
+            if not aliases and not enum_broken and not aliases_broken:
+                self.report(path + ("as",), "a choice field needs constraints.enum or extract.aliases")
+        if kind is None:
+            return None
         return FieldHints(
             kind=kind,
             cues=cues,

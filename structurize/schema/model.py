@@ -27,6 +27,30 @@ KINDS: tuple[str, ...] = (
 #: Table Schema types that can be extraction targets.
 TYPES: tuple[str, ...] = ("string", "number", "integer", "date", "datetime", "boolean", "year", "any")
 
+_TEXT_ONLY = frozenset({"string", "any"})
+#: The Table Schema types each kind's values can be cast to (``validate.cast``).  A kind's
+#: value is a name, an address or a phone number (text only), a calendar date (a date, or a
+#: datetime at midnight; never a year: "2025-03-01" is not a year), an amount (a number, or a
+#: whole amount for an integer; an amount is no year), a plain number (also a whole one or a
+#: year), ``true``/``false`` (boolean only: a flag is no number), an identifier (text, or
+#: digits read as a number), an enum value or the words after a cue (``choice``, ``text``:
+#: cast like any cell, so every type).  ``string`` and ``any`` take every kind.
+KIND_TYPES: dict[str, frozenset[str]] = {
+    "person": _TEXT_ONLY,
+    "organization": _TEXT_ONLY,
+    "place": _TEXT_ONLY,
+    "job_title": _TEXT_ONLY,
+    "email": _TEXT_ONLY,
+    "phone": _TEXT_ONLY,
+    "date": _TEXT_ONLY | {"date", "datetime"},
+    "money": _TEXT_ONLY | {"number", "integer"},
+    "number": _TEXT_ONLY | {"number", "integer", "year"},
+    "identifier": _TEXT_ONLY | {"number", "integer", "year"},
+    "flag": _TEXT_ONLY | {"boolean"},
+    "choice": frozenset(TYPES),
+    "text": frozenset(TYPES),
+}
+
 DATE_ORDERS: tuple[str, ...] = ("MDY", "DMY", "YMD")
 
 DEFAULT_REVIEW_BELOW = 0.8
