@@ -53,7 +53,9 @@ QuietOpt = Annotated[bool, typer.Option("--quiet", "-q", help="No progress bar a
 
 
 def _fail(message: str, code: int) -> typer.Exit:
-    err.print(f"structurize: {message}", markup=False)
+    """Print an error (one line, or one line per problem of a schema) and say how to exit."""
+    for line in message.splitlines() or [""]:
+        err.print(f"structurize: {line.removeprefix('structurize: ')}", markup=False)
     return typer.Exit(code)
 
 

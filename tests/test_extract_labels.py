@@ -186,7 +186,8 @@ GAPS = [
     ("nothing at all: missing", "We talked about the handover.\n", [LAST_DAY], "last_day", MISSING, ""),
     ("the document says it is unknown: missing", "Last day: TBD\n", [LAST_DAY], "last_day", MISSING, "label.v1"),
     ("a value was read: the sign is not used", "Last day: 4 July 2025\nWe talked about her last day.\n", [LAST_DAY], "last_day", OK, "label.v1"),
-    ("a letter's date in words", "Larkspur Playhouse\n\nThe ninth of May, 2025\n\nDear Ivo,\nThank you.\n", [LETTER_DATE], "letter_date", REVIEW, "unread.v1"),
+    ("a letter dated by month only", "Larkspur Playhouse\n\nMid-May 2025\n\nDear Ivo,\nThank you.\n", [LETTER_DATE], "letter_date", REVIEW, "unread.v1"),
+    ("a letter's date in words is read", "Larkspur Playhouse\n\nThe ninth of May, 2025\n\nDear Ivo,\nThank you.\n", [LETTER_DATE], "letter_date", OK, "dateline.v1"),
     ("the word 'date' in running text is no sign", "Please reply by the date we agreed.\n", [LETTER_DATE], "letter_date", MISSING, ""),
     ("a choice label holds no listed value", "Reason for leaving: a touring contract abroad\n", [REASON], "leave_reason", REVIEW, "unread.v1"),
 ]

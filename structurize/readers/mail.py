@@ -9,9 +9,9 @@ messages inside the body are marked as regions (:func:`_mark_quotes`; in an HTML
 in it.  The header lines of a forwarded or quoted message stay text inside its region: they
 are not added to the document's headers, which are this message's own.
 
-Hostile messages (RELIABILITY.md §1.7, catalogue E1–E5) are bounded before the stdlib parser
-sees them: a file larger than ``limits.email_bytes`` is ``failed: too_large`` before it is
-read; the file is streamed through :func:`bounded_message`, which drops the content of
+Hostile messages (catalogue E1–E5 in tests/CATALOGUE.md; Python ``email.policy`` docs) are
+bounded before the stdlib parser sees them: a file larger than ``limits.email_bytes`` is
+``failed: too_large`` before it is read; the file is streamed through :func:`bounded_message`, which drops the content of
 any MIME part larger than ``limits.email_part_bytes`` (warning ``attachment_skipped``; the
 rest of the message is still read) and stops at ``limits.email_parts`` parts or
 ``limits.email_depth`` levels of nesting (``partial: mime_limits``; what came before is
@@ -339,7 +339,7 @@ _TEXT_MEDIA = (b"text/plain", b"text/html")
 
 
 def bounded_message(path: Path, limits: Limits) -> Bounded:
-    """Stream ``path`` and keep what the MIME limits allow (RELIABILITY.md §1.7, E4/E5).
+    """Stream ``path`` and keep what the MIME limits allow (catalogue E4/E5 in tests/CATALOGUE.md).
 
     A light MIME scan follows the boundaries declared in each header block: a part's
     content is buffered up to ``limits.email_part_bytes`` and dropped (headers kept) when it

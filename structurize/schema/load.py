@@ -43,7 +43,8 @@ from .model import (
 MAX_SCHEMA_BYTES = 1_000_000
 #: Upper bound on YAML nodes after alias expansion (refuses "billion laughs").
 MAX_EXPANDED_NODES = 100_000
-#: Upper bound on YAML aliases (``*name``) in one file (RELIABILITY.md §5).
+#: Upper bound on YAML aliases (``*name``) in one file (common practice, no source: a schema
+#: needs few; alias bombs need many, PyYAML issue #235).
 MAX_ALIASES = 100
 #: Upper bound on nested mappings and lists, YAML or JSON.
 MAX_DEPTH = 100
@@ -181,7 +182,7 @@ def _build(data: Any, source: str, locate: Locate, found: list[tuple[int, Schema
     return schema
 
 
-#: Integers at or above this size cannot even be printed (Python's 4,300-digit limit, §1.9).
+#: Integers at or above this size cannot even be printed (Python's integer string conversion length limit of 4,300 digits: Python docs, CVE-2020-10735).
 _HUGE = 10**4000
 _PLAIN = (str, bool, float, type(None), dt.date)
 

@@ -7,7 +7,7 @@ from typing import Any
 
 from ..patterns import UserPattern, compile_pattern
 
-#: Value kinds a field's ``extract.as`` may name (SCHEMA_FORMAT.md).
+#: Value kinds a field's ``extract.as`` may name (the schema format: README, "The schema").
 KINDS: tuple[str, ...] = (
     "person",
     "organization",
