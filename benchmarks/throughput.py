@@ -154,7 +154,7 @@ def peak_rss(docs: Path, schema: Path, out: Path, workers: int) -> dict[str, int
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("-n", "--documents", type=int, default=1000, help="documents for the speed comparison")
-    parser.add_argument("--repeat", type=int, default=2, help="runs of (a), (c), (d), interleaved; the best counts")
+    parser.add_argument("--repeat", type=int, default=3, help="runs of (a), (c), (d), interleaved; the best counts")
     parser.add_argument("--quick", action="store_true", help="small N everywhere, one repeat (a smoke run)")
     parser.add_argument("--rss", default="1000,10000", help="N values for the peak-RSS runs")
     args = parser.parse_args(argv)

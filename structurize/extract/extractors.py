@@ -625,7 +625,11 @@ def _claimed_by_any(an: Analysis, pair: LabelPair) -> bool:
 
 def _shared_words(spec: FieldSpec, label_stems: frozenset[str]) -> tuple[int, tuple[str, ...]]:
     """How well a label's words are the field's words: 2 title/name, 1 description/cues, 0 none."""
-    strong, weak = _field_words(spec)
+    return _shared_stems(*_field_words(spec), label_stems)
+
+
+@lru_cache(maxsize=16384)
+def _shared_stems(strong: frozenset[str], weak: frozenset[str], label_stems: frozenset[str]) -> tuple[int, tuple[str, ...]]:
     for level, stems in ((2, strong), (1, weak)):
         shared = tuple(sorted(word for word in label_stems if any(stems_meet(word, other) for other in stems)))
         if shared:

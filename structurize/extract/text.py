@@ -280,6 +280,9 @@ def _inflected(word: str) -> str:
     return re.escape(root) + r"(?:e|es|ed|ing|s|er|ers|ion|ions|ment|\w(?:ed|ing))?"
 
 
+_HEAD = _WORD_RUN = re.compile(r"\w+")
+
+
 class PhraseSet:
     """Many phrases searched in one pass: one regular expression per case rule.
 
@@ -297,12 +300,26 @@ class PhraseSet:
         self.patterns = [
             re.compile("|".join(parts), re.IGNORECASE if insensitive else 0) for insensitive, parts in groups.items() if parts
         ]
+        # A phrase that starts with a letter or digit can only match at the start of a word
+        # whose first letters are its own (an inflected word keeps its stem's): the pattern is
+        # tried at those words only, not at every position of the text.
+        heads: set[str] = set()
+        self._scan_all = False
+        for phrase in phrases:
+            first = phrase.split()[0] if phrase.split() else ""
+            word = _HEAD.match(first)
+            if word is None or word.start() > 0 or (inflect and first.lower() in _PRONOUNS):
+                self._scan_all = True
+                continue
+            head = stem(first) if inflect and first.isalpha() and len(first) >= 4 else word.group().lower()
+            heads.add(head[:3])
+        self._heads = frozenset(heads)
 
     def find(self, text: str, start: int = 0, end: int | None = None) -> list[tuple[int, int, int]]:
         end = len(text) if end is None else end
         found = []
         for pattern in self.patterns:
-            for match in pattern.finditer(text, start, end):
+            for match in self._matches(pattern, text, start, end):
                 found.append((match.start(), match.end(), int(match.lastgroup[1:])))  # type: ignore[index]
         if len(self.patterns) > 1:
             found.sort(key=lambda item: (item[0], -(item[1] - item[0])))
@@ -312,6 +329,25 @@ class PhraseSet:
                     kept.append(item)
             found = kept
         return found
+
+    def _matches(self, pattern: re.Pattern[str], text: str, start: int, end: int) -> Iterator[re.Match[str]]:
+        """What ``pattern.finditer(text, start, end)`` gives, trying only the words a phrase
+        can start at."""
+        if self._scan_all:
+            yield from pattern.finditer(text, start, end)
+            return
+        heads, after = self._heads, start
+        for word in _WORD_RUN.finditer(text, start, end):
+            at = word.start()
+            if at < after:
+                continue
+            lowered = word.group()[:3].lower()
+            if lowered not in heads and lowered[:2] not in heads and lowered[:1] not in heads:
+                continue
+            match = pattern.match(text, at, end)
+            if match is not None and match.end() > at:
+                after = match.end()
+                yield match
 
 
 @lru_cache(maxsize=8192)
@@ -398,6 +434,9 @@ def _inverted_name(text: str) -> tuple[int, int] | None:
     initials.  A surname in mixed case ("Walsh, Eamon", "De Luca, Head of Heritage") is
     left alone: in running text that is as often a list, an address or a job title.
     """
+    comma = text.find(",")
+    if comma < 0 or "\n" in text[:comma]:
+        return None  # no comma on the first line: no surname-first name here
     tokens = [(m.start(), m.end(), m.group()) for m in islice(_TOKEN.finditer(text), 9)]  # 3 particles, 2 surnames, 3 given names
     index = 0
     if not tokens or text[: tokens[0][0]].strip():
