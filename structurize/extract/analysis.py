@@ -59,6 +59,8 @@ _WRITTEN_BY = re.compile(
     re.IGNORECASE,
 )
 _COURTESY = re.compile(r"^(?:mr|mrs|ms|miss|mx|dr|prof)\.?$", re.IGNORECASE)
+_MEMO_LABELS = frozenset({"from", "to", "cc", "bcc", "date", "re", "subject", "sent", "attn", "attention", "memo", "memorandum", "ref"})
+_MEMO_PARTIES = frozenset({"from", "to", "cc", "bcc", "attn", "attention"})
 _FIRST_PERSON = re.compile(r"^(?:i|me|myself|i am|i'm|i've|i will)$", re.IGNORECASE)
 
 
@@ -200,6 +202,46 @@ class Analysis:
     @cached_property
     def label_spans(self) -> list[Span]:
         return [pair.label_span for pair in self.pairs]
+
+    def pair_with_value(self, start: int) -> LabelPair | None:
+        """The label/value pair (not an email header) whose value starts at ``start``."""
+        return self._pairs_by_value.get(start)
+
+    @cached_property
+    def _pairs_by_value(self) -> dict[int, LabelPair]:
+        out: dict[int, LabelPair] = {}
+        for pair in self.pairs:
+            if pair.source != "header":
+                out.setdefault(pair.value_span.start, pair)
+        return out
+
+    @cached_property
+    def memo_header_values(self) -> list[Span]:
+        """The values of a memo's own From/To/Cc lines: a run of three or more header-like
+        label lines ("From:", "To:", "Date:", "Re:" ...) holding a From or a To line.  They
+        name people and mailboxes, not the places or departments a record is about.  A From
+        and a To line alone count too: their values are read as sites only when they are
+        nothing but a listed value (:func:`kinds.read_vocab`)."""
+        lines = [pair for pair in self.pairs if pair.source in ("line", "gap") and pair.label in _MEMO_LABELS]
+        out: list[Span] = []
+        run: list[LabelPair] = []
+
+        def close() -> None:
+            labels = {pair.label for pair in run}
+            if (len(run) >= 3 and labels & {"from", "to"}) or {"from", "to"} <= labels:
+                out.extend(pair.value_span for pair in run if pair.label in _MEMO_PARTIES)
+
+        for pair in lines:
+            if run and self.text.count("\n", run[-1].value_span.end, pair.label_span.start) > 2:
+                close()
+                run = []
+            run.append(pair)
+        close()
+        return out
+
+    def memo_header_value(self, offset: int) -> Span | None:
+        """The memo From/To/Cc value ``offset`` lies in, if any."""
+        return next((span for span in self.memo_header_values if span.start <= offset < max(span.end, span.start + 1)), None)
 
     # --- dates -------------------------------------------------------------------------
 

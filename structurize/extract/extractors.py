@@ -210,7 +210,7 @@ def _inside_label(an: Analysis, start: int, end: int) -> bool:
 def _skip_fillers(text: str, position: int, limit: int) -> tuple[int, str | None]:
     """Move past filler words; return the new position and a first-person word if met."""
     for _ in range(6):
-        match = re.match(r"[\s,:–—-]*([\w'’-]+)", text[position:limit])
+        match = re.match(r"[\s,:–—*_-]*([^\W_][\w'’-]*)", text[position:limit])  # emphasis marks (** __ *) are skipped
         if not match:
             return position, None
         word = match.group(1)
@@ -220,6 +220,30 @@ def _skip_fillers(text: str, position: int, limit: int) -> tuple[int, str | None
             return position + match.start(1), None
         position += match.end()
     return position, None
+
+
+#: "I have approved", "I've now formally approved", "we have reviewed and approved": the
+#: writer is the subject of the verb the cue names.
+_FIRST_PERSON_SUBJECT = re.compile(
+    r"(?:^|[\s(,;:—–-])(?:I|we)(?:['’](?:ve|d|ll|m)|\s+(?:have|had|has|do|did|will|would|shall|am|can|hereby|now|also|"
+    r"formally|fully|today|just|already|happily|gladly|officially|confirm(?: that)?\s+I))*(?:\s+\w+ed\s+(?:and|&))?\s+$",
+    re.IGNORECASE,
+)
+
+
+#: Only a colon (and emphasis marks) between a cue and its value.
+_INLINE_LABEL = re.compile(r"[ \t]*[*_]*[ \t]*:[ \t]*[*_]*[ \t]*$")
+
+
+def _first_person_agent(an: Analysis, hit: CueHit, sentence_start: int) -> bool:
+    """The cue is a verb ("approved", "signed off") whose subject is "I" or "we"."""
+    words = hit.cue.split()
+    if not words or words[-1].lower() in ("by", "to", "of", "for", "from", "with") or _AUTHOR_CUE.search(hit.cue):
+        return False
+    if not re.fullmatch(r"[a-z]+(?:ed|e|en)", an.text[hit.start : hit.end].split()[0].lower()):
+        return False  # a verb form, not a noun cue such as "approver" or "manager"
+    before = an.text[max(sentence_start, hit.start - 50) : hit.start]
+    return bool(_FIRST_PERSON_SUBJECT.search(before))
 
 
 def prose_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
@@ -239,12 +263,24 @@ def _prose_candidates(
         limit = min(len(an.text), hit.end + PROSE_REACH, max(sentence_end, hit.end + 1))
         weight = factor * PROSE_WEIGHT * (1.0 if len(hit.cue.split()) > 1 else 0.85)
         evidence = (note,)
+        if kind == "person" and not an.excluded(hit.start) and _first_person_agent(an, hit, sentence_start):
+            # "I have approved Ana's request": the one who approves is whoever wrote it
+            resolved = _resolve_first_person(an, spec, Reading(None, hit.start, hit.end, 1.0))
+            if resolved is not None:
+                yield _candidate(spec, resolved, name, weight, evidence + ("the writer is the subject of the cue",), an)
+            continue
         if kind == "person" and _AUTHOR_CUE.search(hit.cue) and not an.excluded(hit.start):
             # "I approve the transfer": the person is whoever wrote the document
             resolved = _resolve_first_person(an, spec, Reading(None, hit.start, hit.end, 1.0))
             if resolved is not None:
                 yield _candidate(spec, resolved, name, weight, evidence + ("first-person cue",), an)
             continue
+        if kind == "choice":
+            ranked = _ranked_choice(an, spec, hit, sentence_start, limit)
+            if ranked is not None:
+                for reading, strength, note_ in ranked:
+                    yield _candidate(spec, reading, name, weight * strength * reading.quality, evidence + (note_,), an)
+                continue
         found = False
         for reading, distance in _prose_readings(an, spec, hit.start, hit.end, limit):
             if reading.value is None and "stated_missing" in reading.flags and not re.search(r"[A-Za-z]", an.text[reading.start : reading.end]):
@@ -255,7 +291,12 @@ def _prose_candidates(
                 if resolved is None:
                     continue
                 reading = resolved
-            yield _candidate(spec, reading, name, weight * decay * reading.quality, evidence, an)
+            strength = weight
+            if "answer" in reading.flags:
+                strength = factor * PROSE_WEIGHT  # a question and its answer: as strong as a label and its value
+            elif reading.start >= hit.end and _INLINE_LABEL.match(an.text, hit.end, reading.start):
+                strength = factor * LABEL_WEIGHT  # "A: Rehire: yes." — the cue is a label inside the line
+            yield _candidate(spec, reading, name, strength * decay * reading.quality, evidence, an)
             found = True
             break
         if found or kind not in ("date", "person", "flag", "choice"):
@@ -275,6 +316,150 @@ def _prose_candidates(
         if readings:
             reading = readings[-1]
             yield _candidate(spec, reading, name, weight * 0.7 * reading.quality, evidence + ("value before the cue",), an)
+
+
+_ANSWER_LEAD = re.compile(r"[\s*_>]*(?:(?:a|answer|ans)\s*[:.)–—-]\s*)?[\s*_]*", re.IGNORECASE)
+_BOXES = re.compile(r"\[[ xX✓✔]\]|[☐☒☑]|\([ xX]\)")
+_ANSWER_END = re.compile(r"[,.;:!?()\n]|\s[-–—]|[–—]")
+
+
+def _answer_reading(an: Analysis, spec: FieldSpec, start: int) -> Reading | None:
+    """A yes/no answer opening the sentence at ``start`` (after an optional "A:")."""
+    text = an.text
+    lead = _ANSWER_LEAD.match(text, start, min(len(text), start + 40))
+    begin = lead.end() if lead else start
+    if _BOXES.search(text, begin, an.line_of(begin).end + 1):
+        return None  # "Yes [ ] No [x]": check boxes, read as ticked boxes elsewhere
+    stop = _ANSWER_END.search(text, begin, min(len(text), begin + 40))
+    end = stop.start() if stop else min(len(text), begin + 40)
+    for reading in kinds.read(an, spec, begin, end):
+        if reading.quality <= 0 or reading.value is None:
+            continue
+        if reading.start > begin:
+            break  # only the answer's first word: "Yes", "No", "Not eligible"
+        return replace(reading, flags=reading.flags | {"answer"}, evidence=reading.evidence + ("the answer to a question naming the cue",))
+    return None
+
+
+# Several listed values of one choice in the sentence of its cue ("We recorded pay as the
+# primary reason and workload as a secondary one"): the words next to each value rank it.
+# Each value owns the words up to the nearest clause break on either side (a comma, a
+# semicolon, a dash, "and", "but", "although" ...); a rank word there says which value the
+# sentence puts first (common practice, no source).
+_PRIMARY_WORDS = re.compile(
+    r"\b(?:primary|primarily|main|mainly|chief|chiefly|principal|principally|most important|biggest|deciding|decisive|"
+    r"overriding|foremost|above all|predominantly|mostly|largely|number one|real reason|top reason)\b",
+    re.IGNORECASE,
+)
+_SECONDARY_WORDS = re.compile(
+    r"\b(?:secondary|second|also|minor|another|lesser|smaller|contributing|contributory|additional|too|as well|partly|"
+    r"in part|side issue|to a lesser extent)\b",
+    re.IGNORECASE,
+)
+_RANK_NEGATED = re.compile(r"\b(?:not|n't|never|rather than|instead of|no longer)\b[^,;]{0,20}$", re.IGNORECASE)
+_CLAUSE_BREAK = re.compile(
+    r"[,;]|\s[-–—]{1,2}\s|[–—]|\b(?:and|but|while|whilst|whereas|although|though|yet|however|plus|with)\b", re.IGNORECASE
+)
+#: A value word used as a determiner ("other points", "another reason") names no value.
+_DETERMINER_VALUE = re.compile(r"^(?:other|others)$", re.IGNORECASE)
+RANK_PRIMARY, RANK_CUE, RANK_PLAIN, RANK_SECONDARY = 3, 2, 1, 0
+
+
+def _rank_of(text: str) -> int | None:
+    """RANK_PRIMARY or RANK_SECONDARY when ``text`` (the words a value owns) ranks it."""
+    primary = _PRIMARY_WORDS.search(text)
+    if primary and not _RANK_NEGATED.search(text[: primary.start()]):
+        return RANK_PRIMARY
+    if _SECONDARY_WORDS.search(text):
+        return RANK_SECONDARY
+    return None
+
+
+#: Values listed together ("pay and the shift pattern", "pay, hours or both").
+_COORDINATED = re.compile(
+    r"\s*(?:,|/|&|\band\b|\bor\b|\bplus\b|\bas well as\b)(?:\s*(?:,|and|or))?\s*(?:(?:the|a|an|his|her|their|its|our)\s+)?$",
+    re.IGNORECASE,
+)
+#: A value tied to the cue that follows it: "pay was the main reason", "pay as the reason".
+_LINKED_BEFORE = re.compile(
+    r"^\s*(?:(?:was|is|were|are|as|being|remains?)\s+)?(?:(?:the|a|an|his|her|their|its|our)\s+)?(?:\w+\s+)?$", re.IGNORECASE
+)
+
+
+def _attached(text: str, readings: list[Reading], hit: CueHit) -> set[int]:
+    """Indices of the values the cue governs: the first one after it with those listed
+    together with it, or else the one just before it linked to it ("pay was the main
+    reason") with those listed together with that one."""
+    after = next((i for i, r in enumerate(readings) if r.start >= hit.end), None)
+    if after is not None:
+        out = {after}
+        for i in range(after + 1, len(readings)):
+            if not _COORDINATED.match(text[readings[i - 1].end : readings[i].start]):
+                break
+            out.add(i)
+        return out
+    before = max((i for i, r in enumerate(readings) if r.end <= hit.start), default=None)
+    if before is None or not _LINKED_BEFORE.match(text[readings[before].end : hit.start]):
+        return set()
+    out = {before}
+    for i in range(before - 1, -1, -1):
+        if not _COORDINATED.match(text[readings[i].end : readings[i + 1].start]):
+            break
+        out.add(i)
+    return out
+
+
+def _ranked_choice(an: Analysis, spec: FieldSpec, hit: CueHit, sentence_start: int, limit: int) -> list[tuple[Reading, float, str]] | None:
+    """The value a sentence ranks first when it names several values of the choice near its
+    cue; several unranked values all come back (so that they compete and the field goes to
+    review).  None when the sentence names at most one value: the plain prose rule applies."""
+    text = an.text
+    window_start = max(sentence_start, hit.start - 120)
+    readings = []
+    for reading in kinds.read(an, spec, window_start, limit):
+        if reading.value is None or reading.quality <= 0 or "near_miss" in reading.flags:
+            continue
+        if reading.start < hit.end and hit.start < reading.end:
+            continue  # the cue's own words
+        if _DETERMINER_VALUE.match(text[reading.start : reading.end]) and re.match(r"\s+[a-z]", text[reading.end : reading.end + 3]):
+            continue
+        readings.append(reading)
+    if len({reading.value for reading in readings}) < 2:
+        return None
+    readings.sort(key=lambda r: r.start)
+    attached = _attached(text, readings, hit)
+    ranks: list[int] = []
+    for index, reading in enumerate(readings):
+        left_end = readings[index - 1].end if index else window_start
+        right_end = readings[index + 1].start if index + 1 < len(readings) else limit
+        left = text[left_end : reading.start]
+        right = text[reading.end : right_end]
+        breaks = list(_CLAUSE_BREAK.finditer(left))
+        own = (left[breaks[-1].end() :] if breaks else left) + " " + _CLAUSE_BREAK.split(right, maxsplit=1)[0]
+        rank = _rank_of(own)
+        if rank is None:
+            rank = RANK_CUE if index in attached else RANK_PLAIN
+        ranks.append(rank)
+    top = max(ranks)
+    leaders: dict[object, Reading] = {}
+    for reading, rank in zip(readings, ranks):
+        if rank == top and reading.value not in leaders:
+            leaders[reading.value] = reading
+    others = sorted({str(r.value) for r in readings} - {str(v) for v in leaders})
+    out = []
+    for reading in leaders.values():
+        if len(leaders) > 1:
+            out.append((reading, 0.9, f"one of {len(leaders)} values the sentence names with no rank between them"))
+            continue
+        if reading.start >= hit.end:
+            strength = max(0.45, 1.0 - max(0, reading.start - hit.end - 30) / 250)
+        else:
+            strength = 0.9 if top == RANK_PRIMARY else 0.7
+        why = {RANK_PRIMARY: "ranked first in its sentence", RANK_CUE: "the value the cue governs"}.get(
+            top, "the value its sentence does not call secondary"
+        )
+        out.append((reading, strength, f"{why} (also named: {', '.join(others)})"))
+    return out
 
 
 def _prose_readings(an: Analysis, spec: FieldSpec, start: int, end: int, limit: int) -> Iterator[tuple[Reading, int]]:
@@ -301,7 +486,7 @@ def _prose_readings(an: Analysis, spec: FieldSpec, start: int, end: int, limit: 
         if reading is not None:
             yield reading, position - end
             return
-        before = re.search(r"((?:[A-Z][\w'’&()-]*\s+){0,5}[A-Z][\w'’&()-]*)\s+$", text[max(0, start - 60) : start])
+        before = re.search(r"((?:[A-Z][\w'’&()-]*\s+){0,5}[A-Z][\w'’&()-]*?)_*\**\s+$", text[max(0, start - 60) : start])
         if before and re.match(r"(?:position|role|job|post)\b", text[start:end], re.IGNORECASE):
             phrase_start = max(0, start - 60) + before.start(1)
             reading = kinds.title_phrase(an, phrase_start, start)
@@ -309,7 +494,14 @@ def _prose_readings(an: Analysis, spec: FieldSpec, start: int, end: int, limit: 
                 yield reading, 0
         return
     if kind == "flag":
-        window_start = an.sentence(start)[0]
+        window_start, window_end = an.sentence(start)
+        if text[start:window_end].rstrip().endswith("?"):
+            # "Would we rehire? Yes, without hesitation": the question only names the flag;
+            # the answer that follows it holds the value
+            answer = _answer_reading(an, spec, window_end)
+            if answer is not None:
+                yield answer, 0
+            return
         readings = kinds.read(an, spec, max(window_start, start - 40), limit)
         for reading in readings:
             if reading.quality > 0:
@@ -441,6 +633,7 @@ def scan_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
         other for other in an.schema.fields
         if other.name != spec.name and other.hints.kind == "choice" and set(an.vocabularies[other.name].values) == set(vocabulary.values)
     ]
+    sign = False
     for mention in vocabulary.find(an.text, loose=True):
         if mention.ticked is False or mention.negated:
             continue
@@ -450,6 +643,13 @@ def scan_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             score = 0.8
             evidence = ("a ticked box",)
         elif siblings:
+            if not sign and not an.excluded(mention.start):
+                # "Site now | Hilltop" under a label no cue names: the value is likely here,
+                # but which of the fields sharing the list it belongs to is not said
+                sign = True
+                yield Candidate(spec.name, None, "", Span(mention.start, mention.end), "scan.v1", UNREAD_SHARED,
+                                (f"{an.text[mention.start:mention.end]!r}, a listed value it shares with {siblings[0].name}, "
+                                 "is mentioned with no cue of this field",), frozenset({"unread_value", "fallback"}))
             continue
         else:
             score = 0.28 if not mention.loose else 0.2
@@ -460,6 +660,9 @@ def scan_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
         yield from _near_misses(an, spec, vocabulary)
 
 
+#: How sure a gap is right when a value of a list the field shares with another field is
+#: mentioned with no cue of either (unread.v1's scale).
+UNREAD_SHARED = 0.5
 _CAPITAL_RUN = re.compile(r"(?<![\w.])[A-Z][\w.'’-]*(?:[ \t]+[A-Z][\w.'’-]*){1,3}")
 
 
@@ -502,14 +705,23 @@ def transition_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
     for first, second in zip(mentions, mentions[1:]):
         if first.value == second.value:
             continue
-        between = an.text[first.end : second.start]
+        sentence_start, sentence_end = an.sentence(first.start)
+        if second.start >= sentence_end:
+            continue  # a move is stated in one sentence (a hard-wrapped one included), not across lines of a header
+        between = _unwrapped(an.text[first.end : second.start])
         arrow = bool(re.search(r"→|->|=>|⇒|➔", between))
-        before = an.text[max(0, first.start - 50) : first.start]
+        before = _unwrapped(an.text[max(sentence_start, first.start - 50) : first.start])
         if not _CONNECTOR.match(between) or not (arrow or re.search(r"\bfrom\b[^.;\n]*$", before, re.IGNORECASE)):
             continue
         chosen = (first, second)[side]
         reading = Reading(chosen.value, chosen.start, chosen.end, 1.0)
         yield _candidate(spec, reading, "transition.v1", 0.86 if arrow else 0.8, ("a move written as from ... to ...",), an)
+
+
+def _unwrapped(text: str) -> str:
+    """Running text with single line breaks (a hard-wrapped paragraph) read as spaces; a
+    blank line still ends it."""
+    return re.sub(r"(?<!\n)\n(?![ \t]*\n)", " ", text)
 
 
 def title_transition_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:

@@ -229,6 +229,17 @@ def read_vocab(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Read
     mentions = vocabulary.find(an.text, start, end)
     out = []
     kind = spec.hints.kind
+    party = an.memo_header_value(start) if kind == "choice" else None
+    if party is not None:
+        # "From: Ana Ruiz, Hilltop Branch": a memo's sender or recipient, not the record's
+        # site; a listed value names one only when it opens the line ("From: Hilltop Branch
+        # (night shift)") or is most of it
+        raw = an.text[party.start : party.end]
+        value = raw.strip(" *_.")
+        opening = party.start + len(raw) - len(raw.lstrip(" *_"))
+        inside = [m for m in mentions if party.start <= m.start < party.end]
+        if not any(m.start == opening for m in inside) and sum(m.end - m.start for m in inside) < 0.6 * len(value):
+            return []
     person = an.person_at(an.text[start:end], start) if kind == "choice" else None
     about_person = person is not None and len(person.name.split()) >= 2
     for mention in mentions:
@@ -252,6 +263,10 @@ def read_vocab(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Read
         if kind == "flag":
             value = value == "true"
         out.append(Reading(value, mention.start, mention.end, quality, frozenset(flags), evidence=(f"variant {mention.variant!r}",)))
+    if kind == "flag":
+        negated = _under_negated_label(an, vocabulary, start, end, out)
+        if negated is not None:
+            return negated
     if not out and kind == "choice":
         part = _distinctive_reading(an, vocabulary, start, end)
         if part is not None:
@@ -275,6 +290,30 @@ def read_vocab(an: Analysis, spec: FieldSpec, start: int, end: int) -> list[Read
                             evidence=(f"near miss of {variant!r}",))
                 )
     return out or _missing_list(an, start, end)
+
+
+def _under_negated_label(an: Analysis, vocabulary: Any, start: int, end: int, readings: list[Reading]) -> list[Reading] | None:
+    """The value of a label that itself states the flag's negative value ("Not eligible for
+    rehire: a safety violation", "Ineligible for rehire: yes"): false, whatever follows it
+    (a reason, a date, a tick or a yes).  A "no" under it is a double negative nobody should
+    guess at, an empty or pending value says nothing, and a label listing both options
+    ("Eligible / Not eligible") states neither.  None when ``start:end`` is not the value of
+    such a label (the readings stand)."""
+    pair = an.pair_with_value(start)
+    if pair is None or end > pair.value_span.end:
+        return None
+    label = pair.label_span
+    mentions = vocabulary.find(an.text, label.start, label.end, loose=False)
+    states_false = [m for m in mentions if (m.value == "true") == m.negated]
+    if not states_false or len(states_false) < len(mentions):
+        return None
+    if any(r.value is False for r in readings) or stated_missing(an, start, end) is not None:
+        return []
+    if not readings and not re.search(r"[^\W_]|\[[xX✓✔]\]|[☒☑✓✔]", an.text[start:end]):
+        return []
+    mention = states_false[0]
+    return [Reading(False, mention.start, mention.end, 0.95, frozenset({"negated_label"}),
+                    evidence=(f"the label {an.text[label.start:label.end]!r} states the negative value",))]
 
 
 #: Where a labelled value ends: "Hilltop (from May)", "Hilltop, east wing", "Hilltop – temporary".
@@ -649,8 +688,11 @@ def title_phrase(an: Analysis, start: int, limit: int) -> Reading | None:
         token = match.group()
         if not words and token.lower() in _TITLE_LINKS:
             break
-        words.append(match.span())
+        closed = len(token) - len(token.rstrip("_"))
+        words.append((match.start(), match.end() - closed))
         position = match.end()
+        if closed:
+            break  # "__Network Planner__": the emphasis ends the title
         dash = re.match(r"\s[–—]\s(?=[A-Z])", text[position : position + 4])
         if dash:
             position += dash.end()
@@ -662,7 +704,7 @@ def title_phrase(an: Analysis, start: int, limit: int) -> Reading | None:
     value = " ".join(text[first:last].split())
     if not _has_head(value):
         return None
-    return Reading(value, first, last, 0.9)
+    return Reading(value, first, last, 0.95)  # a recognised head word, as for a labelled title (read_job_title)
 
 
 def _missing_list(an: Analysis, start: int, end: int) -> list[Reading]:

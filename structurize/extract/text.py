@@ -273,7 +273,7 @@ _PRONOUNS = frozenset("us you me him her them".split())
 
 def _inflected(word: str) -> str:
     if word.lower() in _PRONOUNS:
-        return r"\S+(?:\s+\S+){0,4}?"  # "join us as" also finds "join Acme Co. as"
+        return r"\S+(?:\s+\S+){0,7}?"  # "join us as" also finds "join the billing office at Acme Co. as"
     if not word.isalpha() or len(word) < 4:
         return re.escape(word)
     root = stem(word)  # "interviewed" → "interview": also finds "interview by"

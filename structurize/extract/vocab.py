@@ -20,12 +20,13 @@ from ..schema.model import FieldHints
 from .text import PhraseSet, fold, stem
 
 _NEGATION_BEFORE = re.compile(
-    r"(?:\b(?:not|no|never|nothing to do with|isn't|wasn't|aren't|weren't|without|rather than|instead of|"
+    r"(?:\b(?:not|no|never|nothing to do with|nothing about|isn't|wasn't|aren't|weren't|without|rather than|instead of|"
     r"not about|not because of|other than)\b[^.;:\n]{0,25})$",
     re.IGNORECASE,
 )
 _NEGATION_AFTER = re.compile(
-    r"^[^.;\n]{0,40}?\b(?:(?:was|is|were|are)(?:n't| not)|wasn't|isn't)\s+(?:the|a|an)?\s*(?:issue|problem|driver|reason|factor|concern)\b",
+    r"^[^.;\n]{0,40}?\b(?:(?:was|is|were|are)(?:n't|n’t| not)|wasn't|isn't)\s+(?:the|a|an)?\s*"
+    r"(?:(?:main|primary|real|only|chief|biggest|big|major|deciding|key|whole)\s+)?(?:issue|problem|driver|reason|factor|concern)\b",
     re.IGNORECASE,
 )
 _UNTICKED = re.compile(r"(?:\[\s\]|☐|\(\s\))\s*$")
