@@ -12,7 +12,9 @@ How confidence is computed (also in DEVELOPERS.md, "Confidence"):
    each further one at half weight (agreement between extractors and places raises it).
 3. The best group wins.  A competing group with support ``c`` against the winner's ``b``
    lowers confidence to ``b · (1 - ½ (c/b)²)``: a close rival halves it, a weak one barely
-   matters.
+   matters.  A winner read under a label that clearly names the field, in a clear layout
+   (flag ``clear_label``), counts a rival with no such label (running text, a heading, a
+   loosely matching label) at half its support, unless the rival is a revision.
 4. Ambiguity lowers it further: an ambiguous numeric date, a year taken from the document's
    date or a century inferred from it, an amount whose separators may be read two ways, a
    guessed text encoding, a partial name, a value that acts for someone else.
@@ -55,6 +57,11 @@ FLAG_FACTORS = {
     "ambiguous_separator": 0.6,  # "$4.200": a decimal mark or thousands (extract/money.py)
     "ocr": 0.8,
 }
+#: A value under a label that clearly names the field, in a clear layout (flag
+#: ``clear_label``: a ``Label: value`` line, a table row), against a rival value with no
+#: such label (running text, a heading, a label that names the field only loosely): the
+#: rival's support counts at this share.
+UNLABELLED_RIVAL = 0.5
 #: Confidence that a field is absent when nothing at all was found for it.
 ABSENT_CONFIDENCE = 0.9
 #: ... when its cues do occur in the document but no value could be read near them.
@@ -120,6 +127,10 @@ def _groups(candidates: Iterable[Candidate]) -> list[_Group]:
     return groups
 
 
+def _clear_label(group: _Group) -> bool:
+    return any("clear_label" in c.flags for c in group.members)
+
+
 def _indirect(group: _Group) -> bool:
     return all("indirect" in c.flags for c in group.members)
 
@@ -139,6 +150,8 @@ def resolve_field(spec: FieldSpec, candidates: list[Candidate], *, review_below:
         # weak, cue-less evidence for other values does not count against cued evidence
         rivals = [g for g in rivals if any("fallback" not in c.flags for c in g.members)]
     rival = rivals[0].support if rivals else 0.0
+    if rivals and _clear_label(best) and not _clear_label(rivals[0]) and not any("revised" in c.flags for c in rivals[0].members):
+        rival *= UNLABELLED_RIVAL  # a form's own field against a mention elsewhere
     confidence = best.support * (1.0 - 0.5 * (rival / best.support) ** 2) if best.support else 0.0
     chosen = best.best
     for flag in chosen.flags:

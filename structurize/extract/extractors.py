@@ -38,17 +38,23 @@ from ..types import Alternative, Candidate, Span
 from . import kinds
 from .analysis import Analysis, CueHit, Person
 from .kinds import Reading
-from .layout import LabelPair
+from .layout import KIND_HEADINGS, LabelPair
 from .vocab import Vocabulary
-from .text import GENERIC_LABEL_WORDS, PhraseSet, content_stems, cue_match, field_word_stems, leading_name, norm, stem, stems_meet, synonym_variants
+from .text import GENERIC_LABEL_WORDS, PhraseSet, agent_cue, agent_label, content_stems, cue_match, field_word_stems, leading_name, norm, stem, stems_meet, synonym_variants
 
 #: Below this cue/label match a label is not taken as naming the field.
 MIN_LABEL_MATCH = 0.6
 #: Column headings that say what kind of value a cell holds, not which field it is.
-GENERIC_COLUMNS = frozenset(
-    "name names date dates signature signed status detail details value values response answer comments notes note info information".split()
-)
+GENERIC_COLUMNS = KIND_HEADINGS
 LABEL_WEIGHT = 0.92
+#: A label matching a cue at least this well names the field (the cue itself, a synonym, the
+#: cue with a word more or in another order): the match counts fully; weaker matches (a
+#: shared first word, a shortened label) count in proportion.
+CLEAR_MATCH = 0.9
+#: ... and a layout at least this sure to be a label and its value (a ``Label: value`` line,
+#: a table row, a question and its answer) makes the value one a form states (flag
+#: ``clear_label``), which evidence from running text contests less (resolve.py).
+CLEAR_LAYOUT = 0.9
 PROSE_WEIGHT = 0.88
 PROSE_REACH = 110  #: characters after a cue in which a value may start
 EXCLUDED_FACTOR = 0.2
@@ -111,11 +117,35 @@ def _candidate(
 
 def _best_cue(spec: FieldSpec, label: str) -> tuple[float, str]:
     best = (0.0, "")
+    if spec.title and norm(spec.title) == label:
+        best = (1.0, spec.title)  # the field's own title as a label: "Approver", "Employee ID"
     for cue in spec.hints.cues:
         score = cue_match(norm(cue), label)
         if score > best[0]:
             best = (score, cue)
     return best
+
+
+def _field_match(an: Analysis, spec: FieldSpec, label: str) -> tuple[float, str]:
+    """:func:`_best_cue`, less a "… by" label that names the doer of what the cue names
+    when another field's cue names that doer ("Exit interview by" is the interviewer's)."""
+    match, cue = _best_cue(spec, label)
+    if match and agent_label(label) and not agent_cue(norm(cue)) and _agent_claims(an, spec, label):
+        return 0.0, cue
+    return match, cue
+
+
+#: A label whose words in brackets are left out ("Approved by (receiving site)") names what
+#: the rest names, at this share of the match.
+ASIDE_FACTOR = 0.95
+_ASIDE = re.compile(r"\s*\([^()]*\)\s*")
+
+
+def _without_aside(label: str) -> str:
+    """A label less its words in brackets, normalised ("" when it has none)."""
+    if "(" not in label:
+        return ""
+    return norm(_ASIDE.sub(" ", label))
 
 
 def _owner_margin(an: Analysis, spec: FieldSpec, label: str, score: float) -> float:
@@ -124,9 +154,20 @@ def _owner_margin(an: Analysis, spec: FieldSpec, label: str, score: float) -> fl
     for other in an.schema.fields:
         if other.name == spec.name:
             continue
-        other_score, _ = _best_cue(other, label)
+        other_score, _ = _field_match(an, other, label)
         margin = max(margin, other_score - score)
     return margin
+
+
+def _agent_claims(an: Analysis, spec: FieldSpec, label: str) -> bool:
+    """Another field's cue names the doer of a "… by" label ("interviewed by" for "Exit
+    interview by")."""
+    for other in an.schema.fields:
+        if other.name != spec.name and any(
+            agent_cue(norm(cue)) and cue_match(norm(cue), label) >= MIN_LABEL_MATCH for cue in other.hints.cues
+        ):
+            return True
+    return False
 
 
 def _resolve_first_person(an: Analysis, spec: FieldSpec, reading: Reading) -> Reading | None:
@@ -156,8 +197,16 @@ def _label_matches(an: Analysis, spec: FieldSpec) -> Iterator[tuple[LabelPair, s
     for pair in an.pairs:
         if pair.source == "header":
             continue
+        if pair.source == "column" and pair.rows > 1 and pair.label in GENERIC_COLUMNS:
+            continue  # "Name" over several rows says what each value is, not which field it fills
         label = pair.label
         match, cue = _best_cue(spec, label)
+        bare = _without_aside(an.text[pair.label_span.start : pair.label_span.end])
+        if bare and bare != label:
+            # "Approved by (receiving site)": the label without its aside names the field
+            bare_match, bare_cue = _best_cue(spec, bare)
+            if ASIDE_FACTOR * bare_match > match:
+                match, cue = ASIDE_FACTOR * bare_match, bare_cue
         if pair.column and pair.column not in GENERIC_COLUMNS:
             # A cell of a wider table is named by its row and column headings together
             # ("Title" × "Requested"); a cue must name the row, not only the column.
@@ -175,6 +224,8 @@ def _label_matches(an: Analysis, spec: FieldSpec) -> Iterator[tuple[LabelPair, s
             label = chosen
         if match < MIN_LABEL_MATCH:
             continue
+        if agent_label(label) and not agent_cue(norm(cue)) and _agent_claims(an, spec, label):
+            continue  # "Exit interview by": the interviewer, not the person interviewed
         margin = _owner_margin(an, spec, label, match)
         if margin >= 0.25 or (margin > 0.2 and match + margin >= 0.95):
             continue  # another field's cues name this label clearly better
@@ -196,7 +247,9 @@ def label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
                     continue
                 reading = resolved
             weight = 1.0 if rank == 0 else 0.45
-            score = LABEL_WEIGHT * pair.strength * match * ownership * reading.quality * weight
+            score = LABEL_WEIGHT * pair.strength * min(1.0, match / CLEAR_MATCH) * ownership * reading.quality * weight
+            if match >= CLEAR_MATCH and pair.strength >= CLEAR_LAYOUT and ownership == 1.0:
+                reading = replace(reading, flags=reading.flags | {"clear_label"})
             yield _candidate(spec, reading, "label.v1", score, evidence, an)
 
 
@@ -830,9 +883,22 @@ def _field_words(spec: FieldSpec) -> tuple[frozenset[str], frozenset[str]]:
     return field_word_stems(spec.title, spec.name, spec.description, spec.hints.cues)
 
 
-def _claimed_by_any(an: Analysis, pair: LabelPair) -> bool:
+#: A label that no field's cues name at least this well is open to the fields whose words it
+#: shares ("Site before move", named only by a first word shared with "site after change").
+CLEAR_CLAIM = 0.7
+
+
+def _claims(an: Analysis, pair: LabelPair) -> tuple[bool, frozenset[str]]:
+    """Whether some field's cues name a pair's label clearly, and the fields that name it at all."""
     labels = [pair.label] + ([pair.column, f"{pair.column} {pair.label}", f"{pair.label} {pair.column}"] if pair.column else [])
-    return any(_best_cue(other, label)[0] >= MIN_LABEL_MATCH for other in an.schema.fields for label in labels)
+    best = 0.0
+    claimers = set()
+    for other in an.schema.fields:
+        match = max(_best_cue(other, label)[0] for label in labels)
+        if match >= MIN_LABEL_MATCH:
+            claimers.add(other.name)
+            best = max(best, match)
+    return best >= CLEAR_CLAIM, frozenset(claimers)
 
 
 def _shared_words(spec: FieldSpec, label_stems: frozenset[str]) -> tuple[int, tuple[str, ...]]:
@@ -869,12 +935,13 @@ def _kind_reading(an: Analysis, spec: FieldSpec, span: Span) -> Reading | None:
     return None
 
 
-_UNCLAIMED: "weakref.WeakKeyDictionary[Analysis, list[tuple[LabelPair, frozenset[str]]]]" = weakref.WeakKeyDictionary()
+_UNCLAIMED: "weakref.WeakKeyDictionary[Analysis, list[tuple[LabelPair, frozenset[str], frozenset[str]]]]" = weakref.WeakKeyDictionary()
 
 
-def _unclaimed_pairs(an: Analysis) -> list[tuple[LabelPair, frozenset[str]]]:
-    """Label/value pairs whose label no field's cues name, with the label's word stems
-    (computed once per document)."""
+def _unclaimed_pairs(an: Analysis, spec: FieldSpec | None = None) -> list[tuple[LabelPair, frozenset[str]]]:
+    """Label/value pairs (table rows and columns included) whose label no field's cues name
+    clearly, with the label's word stems (computed once per document); with ``spec``, less
+    those whose label ``spec``'s own cues name (label.v1 reads them)."""
     cached = _UNCLAIMED.get(an)
     if cached is None:
         cached = []
@@ -882,16 +949,19 @@ def _unclaimed_pairs(an: Analysis) -> list[tuple[LabelPair, frozenset[str]]]:
             if pair.source == "header" or not len(pair.value_span):
                 continue
             stems = content_stems(an.text[pair.label_span.start : pair.label_span.end])
-            if stems and not _claimed_by_any(an, pair):
-                cached.append((pair, stems))
+            if not stems:
+                continue
+            clear, claimers = _claims(an, pair)
+            if not clear:
+                cached.append((pair, stems, claimers))
         _UNCLAIMED[an] = cached
-    return cached
+    return [(pair, stems) for pair, stems, claimers in cached if spec is None or spec.name not in claimers]
 
 
 def unclaimed_label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
     if not _unclaimed_kind_ok(spec):
         return
-    for pair, stems in _unclaimed_pairs(an):
+    for pair, stems in _unclaimed_pairs(an, spec):
         level, shared = _shared_words(spec, stems)
         if not level or (spec.hints.kind == "number" and level < 2):
             continue
@@ -960,7 +1030,7 @@ def unread_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
                       f"label {an.text[pair.label_span.start:pair.label_span.end]!r} (cue {cue!r}) holds {shown!r}, which does not read as a {kind}")
         return
     if _unclaimed_kind_ok(spec):
-        for pair, stems in _unclaimed_pairs(an):
+        for pair, stems in _unclaimed_pairs(an, spec):
             level, shared = _shared_words(spec, stems)
             if level < 2 or an.excluded(pair.value_span.start) or not _has_content(an.text[pair.value_span.start : pair.value_span.end]):
                 continue

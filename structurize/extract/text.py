@@ -46,9 +46,11 @@ LABEL_SYNONYMS = {
     "home": "current", "destination": "new", "receiving": "new", "target": "new", "incoming": "new",
     "future": "new", "after": "new", "post": "role", "position": "role", "job": "role", "title": "role", "designation": "role",
     "authorised": "approved", "authorized": "approved", "signed-off": "approved", "sanctioned": "approved",
-    "workplace": "location", "depot": "site", "team": "department", "division": "department",
+    "workplace": "site", "location": "site", "depot": "site", "team": "department", "division": "department",
     "function": "department", "dept": "department", "section": "department", "directorate": "department",
-    "no": "number", "ref": "number",
+    "area": "department",
+    "emp": "employee", "empl": "employee",
+    "no": "number", "ref": "number", "#": "number", "nr": "number", "num": "number",
 }
 
 
@@ -74,15 +76,43 @@ LABEL_PHRASES = {
     "staff number": "employee number", "payroll number": "employee number", "personnel number": "employee number",
     "payroll ref": "employee number", "payroll reference": "employee number", "payroll id": "employee id",
     "payroll no": "employee number", "badge number": "employee number", "clock number": "employee number",
+    "staff member": "employee", "team member": "employee",
+    "based at": "site", "based in": "site", "new base": "new site", "current base": "current site", "home base": "current site",
+    "moving to": "transfer to", "move to": "transfer to", "relocating to": "transfer to", "transferring to": "transfer to",
+    "signed off by": "approved by", "signed off": "approved", "signed-off by": "approved by",
+    "notes taken by": "interviewed by", "exit interview conducted by": "interview conducted by", "interviewing manager": "interviewer",
+    "date of issue": "dated", "issue date": "dated",
 }
+
+#: Labels that mean a field only when they stand alone, as a label ("Leaving: <name>" is the
+#: person who leaves, "Leaving date" is not; "Destination: <site>" is where someone moves to;
+#: "Taken by" on interview notes is the interviewer), with every reading the label may have
+#: (common practice, no source).  Running text does not read them (see
+#: :func:`synonym_variants`).
+LABEL_ALONE = {
+    "leaving": ("employee",), "leaver": ("employee",), "departing": ("employee",),
+    "destination": ("new site", "transfer to"), "moving to": ("new site", "transfer to"),
+    "new base": ("new site", "transfer to"), "transferring to": ("new site", "transfer to"),
+    "person leaving": ("employee",), "employee leaving": ("employee",), "who is leaving": ("employee",),
+    "notes by": ("interviewed by",), "taken by": ("interviewed by",), "interview by": ("interviewed by",),
+    "exit interview by": ("interviewed by",),
+}
+_LONGEST_FIRST = sorted(LABEL_PHRASES.items(), key=lambda item: -len(item[0]))
+#: A label ending in "now" names the present state: "Site now" is the current site.
+_NOW_LABEL = re.compile(r"^(?P<rest>.+?) (?:now|at present|currently|today)$")
 
 
 @lru_cache(maxsize=65536)
 def canonical_label(label: str) -> str:
     """A label with HR synonyms mapped to the words cues use ("Remuneration" → "salary")."""
-    for phrase, replacement in LABEL_PHRASES.items():
+    if label in LABEL_ALONE:
+        return LABEL_ALONE[label][0]
+    for phrase, replacement in _LONGEST_FIRST:
         if phrase in label:
-            label = re.sub(rf"\b{re.escape(phrase)}\b", replacement, label)
+            label = re.sub(rf"(?<![\w#]){re.escape(phrase)}(?![\w#])", replacement, label)
+    now = _NOW_LABEL.match(label)
+    if now:
+        label = "current " + now.group("rest")
     words = []
     for word in label.split():
         words.extend(LABEL_SYNONYMS.get(word, word).split())
@@ -118,14 +148,41 @@ def cue_match(cue: str, label: str) -> float:
     ("Transferring to" / "transfer to"), then with HR synonyms mapped on both sides
     ("Remuneration" / "salary"); the two later forms score 0.95 of a literal match.
     """
+    if label in LABEL_PHRASES:
+        # a label that is one known phrase is read as that phrase only: "Start in new role" is
+        # the date of the change, not the new role
+        if cue == label:
+            return 1.0
+        readings = LABEL_ALONE.get(label, (canonical_label(label),))
+        return round(0.95 * max(_cue_match(canonical_label(cue), reading) for reading in readings), 6)
     score = _cue_match(cue, label)
     variants = [(canonical_label(cue), canonical_label(label))]
+    variants += [(canonical_label(cue), reading) for reading in LABEL_ALONE.get(label, ())[1:]]
     if " " in cue and " " in label:  # stems only for phrases: "requested" is not "request"
         variants.append((_stems(cue), _stems(label)))
     for variant_cue, variant_label in variants:
         if (variant_cue, variant_label) != (cue, label):
             score = max(score, 0.95 * _cue_match(variant_cue, variant_label))
-    return score
+    return round(score, 6)  # 0.6 + 0.3 is 0.9, not 0.8999999999999999
+
+
+_AGENT_WORDS = re.compile(r"(?:ed|en|er|or)$")
+
+
+def agent_cue(cue: str) -> bool:
+    """A cue that names who did something: "interviewed by", "approved", "interviewer"
+    (not "employee number": a kind word ending in -er is no doer)."""
+    words = cue.split()
+    if not words:
+        return False
+    last = words[-1]
+    return last == "by" or (bool(_AGENT_WORDS.search(last)) and last not in GENERIC_LABEL_WORDS)
+
+
+def agent_label(label: str) -> bool:
+    """A label that names who did something: "Exit interview by", "Request by"."""
+    words = label.split()
+    return len(words) >= 2 and words[-1] == "by"
 
 
 #: Words that carry no meaning of their own when a label is compared with a field's words.
@@ -203,7 +260,7 @@ def _cue_match(cue: str, label: str) -> float:
         return 1.0
     label_words = label.split()
     cue_words = cue.split()
-    content = [word for word in label_words if word not in _PREPOSITIONS] or label_words
+    content = [word for word in label_words if word not in _PREPOSITIONS and word not in _QUESTION_WORDS and word not in _QUALIFIERS] or label_words
     score = 0.0
     if _contains_words(label_words, cue_words):
         cue_content = [w for w in cue_words if w not in _PREPOSITIONS]
@@ -211,8 +268,11 @@ def _cue_match(cue: str, label: str) -> float:
         coverage = min(1.0, len(cue_content) / len(content)) if cue_content else len(cue_words) / len(label_words)
         score = (0.8 + 0.2 * coverage) if len(cue_words) > 1 else (0.6 + 0.3 * coverage)
     elif len(label_words) < len(cue_words) and cue_words[: len(label_words)] == label_words:
-        # a shortened label: "Current:" for the cue "current site"
+        # a shortened label: "Current:" for the cue "current site"; "Start:" for "start date"
+        # leaves out only what kind of value it is, which the value itself shows
         score = 0.55 + 0.3 * len(label_words) / len(cue_words)
+        if all(word in GENERIC_LABEL_WORDS for word in cue_words[len(label_words) :]):
+            score = 0.9
     elif len(cue_words) >= 2 and set(cue_words) <= set(label_words):
         # the cue's words in another order: "Name of employee" for "employee name"
         score = 0.8 + 0.15 * len(cue_words) / len(content)
@@ -233,6 +293,10 @@ def _cue_match(cue: str, label: str) -> float:
 
 
 _PREPOSITIONS = frozenset("a an the of to by on at for from in with as and or is".split())
+#: Words that qualify what a label names without changing it ("Full name of employee").
+_QUALIFIERS = frozenset("full complete actual official legal".split())
+#: Words that make a label a question ("Would we rehire?"), not what it is about.
+_QUESTION_WORDS = frozenset("would will should could can do does did are was were we you they he she i this".split())
 
 
 def _contains_words(haystack: list[str], needle: list[str]) -> bool:
