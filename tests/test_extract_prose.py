@@ -135,7 +135,10 @@ FLAGS = [
     ("a plain label still reads", "Eligible for rehire: no\n", False, OK),
     ("a plain label still reads (yes)", "Eligible for rehire: yes\n", True, OK),
     ("a question left open", "Would we rehire? We have not decided.\n", None, REVIEW),
-    ("boxes after the answers are not a spoken answer", "Would we rehire? Yes [ ] No [x]\n", None, REVIEW),
+    ("boxes after the answers: the ticked one", "Would we rehire? Yes [ ] No [x]\n", False, OK),
+    ("boxes before the answers: the ticked one", "Rehire: [ ] Yes [x] No\n", False, OK),
+    ("boxes after the answers, the other way", "Eligible for rehire: Yes [x] No [ ]\n", True, OK),
+    ("boxes as marks", "Eligible for rehire:  ☐ Yes  ☒ No\n", False, OK),
 ]
 
 

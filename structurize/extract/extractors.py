@@ -235,6 +235,10 @@ def _label_matches(an: Analysis, spec: FieldSpec) -> Iterator[tuple[LabelPair, s
 
 def label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
     for pair, label, match, cue, ownership in _label_matches(an, spec):
+        if pair.source == "question":
+            # a question that names the cue asks for this very value, whatever else it says
+            # ("Would the depot rehire him? No"): as clear as a label of the cue itself
+            match = max(match, CLEAR_MATCH)
         readings = kinds.read(an, spec, pair.value_span.start, pair.value_span.end)
         readings = [r for r in readings if r.quality > 0]
         if not readings:

@@ -31,6 +31,12 @@ _NEGATION_AFTER = re.compile(
 )
 _UNTICKED = re.compile(r"(?:\[\s\]|☐|\(\s\))\s*$")
 _TICKED = re.compile(r"(?:\[[xX✓✔]\]|☒|☑|\([xX]\))\s*$")
+_BOX_TEXT = r"(?:\[[\sxX✓✔]\]|☐|☒|☑|\([\sxX]\))"
+_BOX = re.compile(_BOX_TEXT)
+_BOX_FIRST = re.compile(r"\s*" + _BOX_TEXT)
+_BOX_LAST = re.compile(_BOX_TEXT + r"\s*$")
+_TICKED_NEXT = re.compile(r"\s*(?:\[[xX✓✔]\]|☒|☑|\([xX]\))")
+_UNTICKED_NEXT = re.compile(r"\s*(?:\[\s\]|☐|\(\s\))")
 
 
 @dataclass(frozen=True, slots=True)
@@ -141,8 +147,19 @@ class Vocabulary:
         before = text[max(0, s - 60) : s]
         line_before = before.rsplit("\n", 1)[-1]
         after = text[e : e + 60]
+        line_after = after.split("\n", 1)[0]
+        # A check box belongs to the option it stands before ("[x] Yes [ ] No"), or, when the
+        # options' boxes follow them ("Yes [ ] No [x]": the line's answers end in a box and do
+        # not start with one), to the option it stands after.
+        answers = (line_before.rsplit(":", 1)[-1] + text[s:e] + line_after).strip()
+        box_after = bool(_BOX.search(answers)) and not _BOX_FIRST.match(answers) and bool(_BOX_LAST.search(answers))
         ticked: bool | None = None
-        if _TICKED.search(line_before):
+        if box_after:
+            if _TICKED_NEXT.match(line_after):
+                ticked = True
+            elif _UNTICKED_NEXT.match(line_after):
+                ticked = False
+        elif _TICKED.search(line_before):
             ticked = True
         elif _UNTICKED.search(line_before):
             ticked = False
