@@ -53,6 +53,7 @@ from structurize.store.migrations import MIGRATIONS
 from structurize.write import unguard
 
 from conftest import DEMO_DOCS, SCHEMAS
+from test_hostile_batch import read_csv, rows
 from test_hostile_docx import BILLION_LAUGHS, body, para, rebuild
 from test_hostile_email import HEAD, multipart, nested, text_part
 from test_hostile_pdf import (
@@ -75,7 +76,6 @@ GOOD_DIR = DEMO_DOCS / "offer_letter"
 GOOD = sorted(p.name for p in GOOD_DIR.iterdir() if p.is_file())
 OFFER_SCHEMA = SCHEMAS / "offer_letter.yaml"
 OUTPUTS = ("table.csv", "values.csv", "documents.csv")
-TIMING_COLUMNS = ("seconds",)
 RUN_TIMEOUT = 300  # a hang guard, not a timing assertion
 WRONG_PASSWORD = "wrong-guess-77"
 XXE_TOKEN = "CANARY-" + secrets.token_hex(8)
@@ -333,19 +333,6 @@ def extract(folder: Path, out: Path, *extra: str, cwd: Path | None = None) -> Ra
     except subprocess.TimeoutExpired:
         pytest.fail(f"the run over {folder.name} did not finish in {RUN_TIMEOUT} s (a hung batch)")
     return Ran(done.returncode, done.stdout, done.stderr)
-
-
-def read_csv(path: Path) -> list[dict[str, str]]:
-    with path.open(encoding="utf-8-sig", newline="") as handle:
-        return [{key: unguard(value) for key, value in row.items()} for row in csv.DictReader(handle)]
-
-
-def rows(out: Path, name: str, documents: set[str] | None = None) -> list[dict[str, str]]:
-    found = read_csv(out / name)
-    for row in found:
-        for column in TIMING_COLUMNS:
-            row.pop(column, None)
-    return [row for row in found if documents is None or row["document"] in documents]
 
 
 def snapshot(folder: Path) -> dict[str, bytes]:
