@@ -22,10 +22,10 @@ from .extract import extract_candidates
 from .extract.ner import Entity, NerModel, NoNer, load_model
 from .options import ExtractOptions
 from .readers import read_document
-from .resolve import companions, period_candidate, resolve_field
+from .resolve import resolve_document
 from .schema import TargetSchema, load_schema
 from .spool import ResultSpool
-from .types import Candidate, Document, DocumentResult, DocStatus, FieldValue, ValueStatus
+from .types import Document, DocumentResult, DocStatus, FieldValue, ValueStatus
 from .validate import to_text, validate_value
 
 __all__ = ["ExtractionResult", "discover", "extract_document", "extract_folder", "load_schema"]
@@ -349,18 +349,7 @@ def process_text(doc: Document, schema: TargetSchema, entities: tuple[Entity, ..
     if not doc.status.readable:
         return _unread_values(schema, doc.reason or str(doc.status))
     analysis, candidates = extract_candidates(doc, schema, entities)
-    review_below = schema.review_below
-    resolved: dict[str, FieldValue] = {}
-    pairs = companions(schema)
-    order = [spec for spec in schema.fields if spec.name not in pairs] + [spec for spec in schema.fields if spec.name in pairs]
-    for spec in order:
-        found: list[Candidate] = list(candidates[spec.name])
-        if spec.name in pairs and pairs[spec.name] in resolved:
-            extra = period_candidate(spec, resolved[pairs[spec.name]], candidates[pairs[spec.name]], analysis.vocabularies[spec.name])
-            if extra is not None:
-                found.append(extra)
-        cues_seen = any(not analysis.excluded(hit.start) for hit in analysis.cue_hits.get(spec.name, ()))
-        resolved[spec.name] = resolve_field(spec, found, review_below=review_below, cues_seen=cues_seen)
+    resolved = resolve_document(schema, analysis, candidates)
     out = []
     for spec in schema.fields:
         item = validate_value(spec, resolved[spec.name])

@@ -30,9 +30,12 @@ How confidence is computed (also in DEVELOPERS.md, "Confidence"):
 from __future__ import annotations
 
 from collections.abc import Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
+from .extract.analysis import Analysis
+from .extract.extractors import UNREAD_UNTAKEN, untaken_mentions
+from .extract.money import MoneyMention, period_unit, periods_in, restatement_between, same_pay
 from .extract.text import fold
 from .schema.model import FieldSpec, TargetSchema
 from .types import Alternative, Candidate, FieldValue, Span, ValueStatus
@@ -166,7 +169,10 @@ def resolve_field(spec: FieldSpec, candidates: list[Candidate], *, review_below:
     value = chosen.value
     if value is None:
         status = ValueStatus.MISSING
-        reasons.append("the document says the value is not known" if "stated_missing" in chosen.flags else "no value")
+        if "system_sender" in chosen.flags:
+            reasons.append("the sender named is a system or an organisation, not a person")
+        else:
+            reasons.append("the document says the value is not known" if "stated_missing" in chosen.flags else "no value")
     if "near_miss" in chosen.flags:
         status = ValueStatus.REVIEW
         confidence = min(confidence, review_below - 0.05)
@@ -277,3 +283,217 @@ def period_candidate(spec: FieldSpec, money_value: FieldValue, money_candidates:
         score=score,
         evidence=(f"pay period of {money_value.field}", where),
     )
+
+
+# --- an amount and its pay period --------------------------------------------------------
+#
+# The chosen amount may carry its own period ("5,600 per month"), which must agree with the
+# companion period field and be a period the schema can record.  When the document states
+# the same pay in two periods ("USD 5,600 per month, i.e. USD 67,200 per annum"), the
+# statement in a period the schema records is taken; when no such restatement exists, the
+# contradiction stays and both fields go to review.
+
+
+def pay_units(spec: FieldSpec, schema: TargetSchema) -> dict[str, str]:
+    """The pay periods a money field's value may be quoted in, each with the value that
+    records it: those its companion period field lists ({"year": "year", "hour": "hour"}),
+    otherwise those its title and description name ("Annual salary" → year)."""
+    for period_name, money_name in companions(schema).items():
+        if money_name == spec.name:
+            return period_values(schema.field(period_name))
+    return {unit: unit for unit in periods_in(f"{spec.title} {spec.name.replace('_', ' ')} {spec.description or ''}")}
+
+
+def period_values(spec: FieldSpec) -> dict[str, str]:
+    """{period: the choice value that records it} for a period choice field."""
+    out: dict[str, str] = {}
+    for canonical, variants in spec.hints.aliases:
+        for word in (canonical, *variants):
+            unit = period_unit(word)
+            if unit is not None:
+                out.setdefault(unit, canonical)
+                break
+    return out
+
+
+def _chosen(value: FieldValue, candidates: list[Candidate]) -> Candidate | None:
+    return next((c for c in candidates if c.extractor == value.extractor and c.span == value.span and c.value == value.value), None)
+
+
+def _own_period(candidate: Candidate) -> str | None:
+    """The period written next to the amount itself (not only named near it)."""
+    return candidate.facet("period") if candidate.facet("period_from") == "amount" else None
+
+
+def _restatement(chosen: Candidate, mentions: list[MoneyMention], text: str, units: Iterable[str]) -> MoneyMention | None:
+    """The same pay stated again right before or after the chosen amount, in one of ``units``."""
+    own = _own_period(chosen)
+    index = next((i for i, m in enumerate(mentions) if m.start == chosen.span.start), None)
+    if own is None or index is None:
+        return None
+    this = mentions[index]
+    for other in (mentions[index + 1] if index + 1 < len(mentions) else None, mentions[index - 1] if index else None):
+        if other is None or other.period not in units or other.period == own:
+            continue
+        if this.currency and other.currency and this.currency != other.currency:
+            continue
+        first, second = (this, other) if this.start < other.start else (other, this)
+        if restatement_between(text[first.end : second.start]) and same_pay(this.amount, own, other.amount, other.period):
+            return other
+    return None
+
+
+def _take_restatement(
+    spec: FieldSpec, value: FieldValue, chosen: Candidate, other: MoneyMention, found: list[Candidate], text: str, *,
+    review_below: float, cues_seen: bool,
+) -> tuple[FieldValue, list[Candidate]]:
+    """Resolve again with the restated amount in place of the chosen one (the same pay)."""
+    note = f"the same pay restated per {other.period} ({text[other.start:other.end]!r}) next to {chosen.raw!r}"
+    facets = (("period", other.period or ""), ("period_from", "amount")) + ((("currency", other.currency),) if other.currency else ())
+    taken = Candidate(
+        field=spec.name, value=other.amount, raw=text[other.start : other.end], span=Span(other.start, other.end),
+        extractor=chosen.extractor, score=chosen.score, evidence=chosen.evidence + (note,),
+        flags=chosen.flags | {"restated"}, facets=facets,
+    )
+    kept = [c for c in found if _key(c.value) != _key(chosen.value)] + [taken]
+    resolved = resolve_field(spec, kept, review_below=review_below, cues_seen=cues_seen)
+    alternative = Alternative(chosen.value, round(value.confidence, 3), chosen.span)
+    resolved = replace(
+        resolved,
+        alternatives=(alternative,) + tuple(a for a in resolved.alternatives if _key(a.value) != _key(chosen.value)),
+        reason="; ".join(filter(None, (resolved.reason, f"restated per {other.period}: {chosen.raw!r} is the same pay"))),
+    )
+    return resolved, kept
+
+
+def _to_review(value: FieldValue, review_below: float, why: str, alternatives: tuple[Alternative, ...] = ()) -> FieldValue:
+    status = ValueStatus.REVIEW if value.status is ValueStatus.OK else value.status
+    return replace(
+        value,
+        status=status,
+        confidence=round(min(value.confidence, review_below - 0.05), 3),
+        reason="; ".join(filter(None, (value.reason, why))),
+        alternatives=value.alternatives + tuple(a for a in alternatives if all(_key(a.value) != _key(b.value) for b in value.alternatives)),
+    )
+
+
+def restate_pay(
+    spec: FieldSpec, value: FieldValue, found: list[Candidate], units: dict[str, str], mentions: list[MoneyMention], text: str, *,
+    review_below: float, cues_seen: bool,
+) -> tuple[FieldValue, list[Candidate]]:
+    """A chosen amount quoted per a period the schema cannot record ("per month" when the
+    field is an annual salary or an hourly rate): the restatement of the same pay in a period
+    it records, when the document gives one; otherwise the amount goes to review."""
+    if not units or value.value is None:
+        return value, found
+    chosen = _chosen(value, found)
+    own = _own_period(chosen) if chosen is not None else None
+    if chosen is None or own is None or own in units:
+        return value, found
+    other = _restatement(chosen, mentions, text, units)
+    if other is not None:
+        return _take_restatement(spec, value, chosen, other, found, text, review_below=review_below, cues_seen=cues_seen)
+    return _to_review(value, review_below, f"the amount is quoted per {own}, not per {' or '.join(sorted(units))}"), found
+
+
+def check_pay_period(
+    money_spec: FieldSpec, money: FieldValue, money_found: list[Candidate], period_spec: FieldSpec, period: FieldValue,
+    mentions: list[MoneyMention], text: str, *, review_below: float, cues_seen: bool,
+) -> tuple[FieldValue, FieldValue]:
+    """The chosen amount's own period against the resolved period field: the restatement of
+    the same pay in the field's period when there is one, otherwise both go to review."""
+    if money.value is None or period.value is None:
+        return money, period
+    chosen = _chosen(money, money_found)
+    own = _own_period(chosen) if chosen is not None else None
+    if chosen is None or own is None:
+        return money, period
+    values = period_values(period_spec)
+    wanted = next((unit for unit, canonical in values.items() if _key(canonical) == _key(period.value)), None)
+    if wanted is None or wanted == own:
+        return money, period
+    other = _restatement(chosen, mentions, text, (wanted,))
+    if other is not None:
+        money, _ = _take_restatement(money_spec, money, chosen, other, money_found, text, review_below=review_below, cues_seen=cues_seen)
+        return money, period
+    why = f"the amount's own period ({own}) contradicts {period_spec.name} ({period.value})"
+    own_value = values.get(own)
+    alternative = (Alternative(own_value, 0.5, chosen.span),) if own_value is not None else ()
+    return _to_review(money, review_below, why), _to_review(period, review_below, why, alternative)
+
+
+# --- a gap while the document holds a value of the field's kind ----------------------------
+
+#: At most this many untaken mentions are offered as alternatives.
+UNTAKEN_ALTERNATIVES = 4
+
+
+def untaken_gap(spec: FieldSpec, value: FieldValue, mentions: list[Any], sign: float, review_below: float) -> FieldValue:
+    """A field left empty although the document holds values of its kind that no field took
+    (``mentions``: readings with a value, a span and a quality): to review, with them as the
+    alternatives, instead of silently missing.  A gap already sent to review keeps its
+    reason and gains the alternatives."""
+    alternatives = tuple(
+        Alternative(m.value, round(sign * m.quality, 3), Span(m.start, m.end)) for m in mentions[:UNTAKEN_ALTERNATIVES]
+    )
+    first = mentions[0]
+    if value.status is ValueStatus.REVIEW:
+        return replace(value, alternatives=value.alternatives + alternatives)
+    kind = spec.hints.kind.replace("_", " ")
+    return FieldValue(
+        field=spec.name,
+        value=None,
+        confidence=round(min(sign, review_below - 0.05), 3),
+        status=ValueStatus.REVIEW,
+        span=Span(first.start, first.end),
+        raw="",
+        extractor="unread.v1",
+        reason=f"a value may be present but was not read: the document holds {len(mentions)} {kind} value(s) no field took",
+        evidence=(f"{kind} values no field took",),
+        alternatives=alternatives,
+    )
+
+
+# --- one document's fields ------------------------------------------------------------------
+
+
+def resolve_document(schema: TargetSchema, analysis: Analysis, candidates: dict[str, list[Candidate]]) -> dict[str, FieldValue]:
+    """Every field of one document resolved from its candidates, in schema order: period
+    fields after their amounts (the amount's period is evidence), then the checks between
+    fields (an amount against its period, a gap next to an untaken value of its kind)."""
+    review_below = schema.review_below
+    resolved: dict[str, FieldValue] = {}
+    used: dict[str, list[Candidate]] = {}  # the candidates each field was resolved from
+    seen: dict[str, bool] = {}
+    pairs = companions(schema)
+    order = [spec for spec in schema.fields if spec.name not in pairs] + [spec for spec in schema.fields if spec.name in pairs]
+    for spec in order:
+        found: list[Candidate] = list(candidates[spec.name])
+        money_name = pairs.get(spec.name)
+        if money_name in resolved:
+            extra = period_candidate(spec, resolved[money_name], used[money_name], analysis.vocabularies[spec.name])
+            if extra is not None:
+                found.append(extra)
+        cues_seen = any(not analysis.excluded(hit.start) for hit in analysis.cue_hits.get(spec.name, ()))
+        seen[spec.name] = cues_seen
+        value = resolve_field(spec, found, review_below=review_below, cues_seen=cues_seen)
+        if spec.hints.kind == "money":
+            # an amount quoted per a period the schema cannot record: its restatement, or review
+            value, found = restate_pay(spec, value, found, pay_units(spec, schema), analysis.money, analysis.text,
+                                       review_below=review_below, cues_seen=cues_seen)
+        resolved[spec.name], used[spec.name] = value, found
+        if money_name in resolved:
+            # the amount's own period against the period field: consistent, or both to review
+            resolved[money_name], resolved[spec.name] = check_pay_period(
+                schema.field(money_name), resolved[money_name], used[money_name], spec, resolved[spec.name], analysis.money, analysis.text,
+                review_below=review_below, cues_seen=seen[money_name],
+            )
+    taken = {name: (item.value, item.span) for name, item in resolved.items()}
+    for spec in schema.fields:
+        item = resolved[spec.name]
+        if item.value is None and (item.status is ValueStatus.MISSING and not item.extractor or item.extractor == "unread.v1"):
+            # empty while the document holds a value of the field's kind no field took: review
+            mentions = untaken_mentions(analysis, spec, taken)
+            if mentions:
+                resolved[spec.name] = untaken_gap(spec, item, mentions, UNREAD_UNTAKEN, review_below)
+    return {spec.name: resolved[spec.name] for spec in schema.fields}

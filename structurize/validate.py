@@ -50,7 +50,7 @@ def cast(spec: FieldSpec, value: Any) -> Any:
             raise CastError(f"not a finite {type_}")
         if type_ in ("integer", "year"):
             if number != number.to_integral_value():
-                raise CastError(f"not a whole number")
+                raise CastError("not a whole number")
             number = int(number)
             if type_ == "year" and not 0 <= number <= 9999:
                 raise CastError("not a year")

@@ -23,7 +23,6 @@ import pytest
 
 from structurize.api import process_text
 from structurize.extract.dates import DateMention, find_dates, parse_date_text, resolve
-from structurize.extract.ner import NoNer
 from structurize.options import ExtractOptions
 from structurize.readers import read_document
 from structurize.schema import schema_from_descriptor

@@ -10,7 +10,6 @@ text, page boundaries, status, reason and warnings.  The reference here is pdfpl
 from __future__ import annotations
 
 import time
-import zlib
 from pathlib import Path
 
 import pytest

@@ -20,7 +20,7 @@ from . import dates as datelib
 from .layout import LabelPair, find_pairs
 from .money import MoneyMention, find_money
 from .ner import Entity
-from .text import PhraseSet, fold, is_partial_name, leading_name, name_core, norm, normalise_name
+from .text import PhraseSet, fold, is_partial_name, leading_name, name_core, norm, normalise_name, system_sender
 from .vocab import Vocabulary, vocabulary_for
 
 EXCLUDED_REGIONS = ("quoted", "forwarded", "attachment")
@@ -33,6 +33,8 @@ _CLOSING = re.compile(
 )
 _ON_BEHALF = re.compile(r"\b(?:on behalf of|for and on behalf of|p\.?p\.?|signing for|for)\s+", re.IGNORECASE)
 _DEAR = re.compile(r"^\s*(?:dear|hi|hello|good morning|good afternoon)\s+", re.IGNORECASE)
+#: A greeting with no "Dear": a name alone on its line, then a comma ("Aurelio,").
+_BARE_GREETING = re.compile(r"^[ \t]*([A-Z][\w'’-]+(?:[ \t]+[A-Z][\w'’-]+){0,2})[ \t]*,[ \t]*$")
 _CC = re.compile(r"^\s*(?:cc|copy to|copies to)\s*:\s*", re.IGNORECASE)
 _ANCHOR_LABEL_WORDS = {
     "letter", "memo", "note", "notes", "conversation", "interview", "meeting", "request", "submitted",
@@ -53,7 +55,10 @@ _REVISION_SECTION = re.compile(r"^\W*(?:update[ds]?|correction|corrected|revised
 _SENTENCE_BREAK = re.compile(r"(?<=[.!?])\s+(?=[A-Z\"“(])|\n\s*\n|\n(?=\s*[-*•]\s)")
 #: Words whose full stop does not end a sentence ("Dr. Amara ...").
 _ABBREVIATIONS = frozenset("dr mr mrs ms mx st co inc ltd no jr sr vs mt ft dept prof etc approx".split())
-_CAPITALISED = re.compile(r"(?<![\w'’-])[A-Z][\w'’-]+\s+[A-Z]")
+#: A capitalised word followed, on the same line, by another: where a full name may start.
+#: The second word is only looked at, so that a name on the line after a code or a heading
+#: ("REF-047" / "Ana Ruiz") is still found.
+_CAPITALISED = re.compile(r"(?<![\w'’-])[A-Z][\w'’-]+(?=[ \t\u00a0]+[A-Z])")
 _WRITTEN_BY = re.compile(
     r"\b(?:written|prepared|recorded|compiled|completed|drafted|notes taken|minuted|filled in)\s+by\s*:?\s*|\bauthor\s*:\s*",
     re.IGNORECASE,
@@ -409,13 +414,15 @@ class Analysis:
                         signer = person
                         principal = self._principal(lines, lines.index(follow)) or principal
                         break
+        if not addressee:
+            addressee.extend(self._bare_salutation(lines))
         if signer is None:
             signer = self._signature_guess(lines)
             if signer is not None:
                 principal = self._principal(lines, next(i for i, l in enumerate(lines) if l.start <= signer.start < l.end + 1))
         for header_name in ("From",):
             header = self.doc.header(header_name)
-            if header is not None and header.addresses and header.addresses[0].name:
+            if header is not None and header.addresses and header.addresses[0].name and not system_sender(header.addresses[0].name):
                 address = header.addresses[0]
                 span = address.name_span or header.span
                 author = Person(span.start, span.end, normalise_name(address.name), "role")
@@ -439,6 +446,25 @@ class Analysis:
                         addressee.append(person)
                         break
         return Roles(tuple(addressee), signer, principal, author, tuple(copied))
+
+    def _bare_salutation(self, lines: list) -> list[Person]:
+        """A greeting with no "Dear": a line holding only a name and a comma ("Aurelio,")
+        that opens the body, i.e. comes before the closing and is followed by running text."""
+        filled = [line for line in lines if self.text[line.start : line.end].strip()]
+        for index, line in enumerate(filled[:-1]):
+            raw = self.text[line.start : line.end]
+            if _CLOSING.match(raw):
+                return []  # the body has ended: a name after it signs, it does not greet
+            match = _BARE_GREETING.match(raw)
+            if not match:
+                continue
+            after = self.text[filled[index + 1].start : filled[index + 1].end].strip()
+            if len(after.split()) < 4 or not after[:1].isalpha():
+                continue  # a name line in an address block or a signature, not a greeting
+            person = self.person_at(match.group(1), line.start + match.start(1))
+            if person is not None:
+                return [person]
+        return []
 
     def _principal(self, lines: list, index: int) -> Person | None:
         for follow in lines[index : index + 3]:
@@ -469,10 +495,14 @@ class Analysis:
             found = leading_name(self.text[pair.value_span.start : pair.value_span.end])
             if found:
                 names.append(found[2])
+        covered = 0
         for match in _CAPITALISED.finditer(self.text):
-            found = leading_name(self.text[match.start() : match.start() + 80])
+            if match.start() < covered:
+                continue  # a later word of a name already read ("Osei" in "Kwabena Osei")
+            found = leading_name(self.text[match.start() : match.start() + 80], match.start())
             if found and len(found[2].split()) >= 2:
                 names.append(found[2])
+                covered = found[1]
         return [name for name in dict.fromkeys(names) if not is_partial_name(name) and not self.is_listed_value(name)]
 
     def complete_name(self, name: str) -> str | None:

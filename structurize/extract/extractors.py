@@ -40,7 +40,8 @@ from .analysis import Analysis, CueHit, Person
 from .kinds import Reading
 from .layout import KIND_HEADINGS, LabelPair
 from .vocab import Vocabulary
-from .text import GENERIC_LABEL_WORDS, PhraseSet, agent_cue, agent_label, content_stems, cue_match, field_word_stems, leading_name, norm, stem, stems_meet, synonym_variants
+from .text import (GENERIC_LABEL_WORDS, PhraseSet, agent_cue, agent_label, content_stems, cue_match, field_word_stems, is_partial_name, leading_name,
+                   norm, stem, stems_meet, synonym_variants, system_sender)
 
 #: Below this cue/label match a label is not taken as naming the field.
 MIN_LABEL_MATCH = 0.6
@@ -590,7 +591,9 @@ def header_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
                                 evidence + (("first address",) if index == 0 else (f"address {index + 1}",)))
         elif kind == "person" and header.addresses:
             address = header.addresses[0]
-            if address.name and "@" not in address.name:
+            if address.name and "@" not in address.name and system_sender(address.name):
+                yield from _system_sender(an, spec, address, span, evidence)
+            elif address.name and "@" not in address.name:
                 at = address.name_span or span
                 found = leading_name(address.name) or (0, len(address.name), address.name)
                 name = kinds.normalise_name(address.name) if "," in address.name else found[2] if len(found[2].split()) > 1 else kinds.normalise_name(address.name)
@@ -604,6 +607,25 @@ def header_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
             value = " ".join(an.text[span.start : span.end].split())
             if value:
                 yield Candidate(spec.name, value, value, span, "header.v1", 0.95, evidence)
+
+
+#: How sure a person field is empty when the From display name names a system or an
+#: organisation ("Careers Portal", "HR System") and the body is signed by no person.
+SYSTEM_SENDER = 0.85
+
+
+def _system_sender(an: Analysis, spec: FieldSpec, address, span: Span, evidence: tuple[str, ...]) -> Iterator[Candidate]:
+    """A From display name made of system or organisation words names no person: the field
+    is empty, with the display name as the alternative a reviewer may pick; a person signing
+    the body competes with that (the message may be a person's, sent through a system)."""
+    at = address.name_span or span
+    note = evidence + (f"display name {address.name!r} names a system or an organisation, not a person",)
+    yield Candidate(spec.name, None, address.name, at, "header.v1", SYSTEM_SENDER, note, frozenset({"stated_missing", "system_sender"}),
+                    alternatives=(Alternative(address.name, 0.3, at),))
+    signer = an.roles.signer
+    if signer is not None and not is_partial_name(signer.name):
+        yield Candidate(spec.name, signer.name, an.text[signer.start : signer.end], Span(signer.start, signer.end), "header.v1", 0.6,
+                        evidence + ("display name names no person: the body's signer",))
 
 
 def _signature_for_address(an: Analysis, spec: FieldSpec, address: str, evidence: tuple[str, ...]) -> Iterator[Candidate]:
@@ -1058,6 +1080,112 @@ def unread_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
         if line is not None:
             shown = " ".join(an.text[line.start : line.end].split())[:40]
             yield _unread(spec, line.start, line.end, UNREAD_PROSE, f"the line {shown!r} near the top names a month and a year but was not read as a date")
+
+
+#: How sure a gap is right when, after every field is resolved, the document still holds a
+#: value of the field's kind that no field took (a date no date field took, an amount no
+#: money field took that is not another payment, a job title under a label no field claims).
+UNREAD_UNTAKEN = 0.5
+#: Kinds whose untaken mentions are a sign: each reads as itself with no cue around it.
+UNTAKEN_KINDS = ("date", "money", "job_title")
+
+
+def untaken_mentions(an: Analysis, spec: FieldSpec, taken: dict[str, tuple[object, Span | None]]) -> list[Reading]:
+    """Values of ``spec``'s kind in the document that no field of that kind took, labelled
+    ones first.  ``taken`` holds every field's resolved value and span."""
+    kind = spec.hints.kind
+    if kind not in UNTAKEN_KINDS:
+        return []
+    same = [taken[other.name] for other in an.schema.fields if other.hints.kind == kind and other.name in taken]
+    values = [value for value, _ in same if value is not None]
+    spans = [span for value, span in same if value is not None and span is not None]
+    if kind == "date":
+        readings = [Reading(d.value, d.start, d.end, 1.0, d.flags) for d in an.dates if d.value is not None]
+    elif kind == "money":
+        readings = [r for r in kinds.read_money(an, spec, 0, len(an.text)) if r.value is not None and "other_payment" not in r.flags]
+    else:
+        readings = [r for pair in _open_title_pairs(an) if (r := _kind_reading(an, spec, pair.value_span)) is not None]
+    own = _own_date_spans(an) if kind == "date" else []
+    distractors = _distractor_stems(spec.description or "")
+    out = []
+    for reading in readings:
+        if an.excluded(reading.start) or "superseded" in reading.flags:
+            continue
+        if any(kinds.same_value(reading.value, value) for value in values) or any(s.start <= reading.start < s.end for s in spans):
+            continue  # the value another field of this kind holds (the letter's date as the offer date)
+        if any(s.start <= reading.start < s.end for s in own):
+            continue  # the document's own date: when it was written, not a date it is about
+        if distractors and _named_before(an, reading.start) & distractors:
+            continue  # "Preview: 2 May" for a field whose description says "not the preview date"
+        out.append(reading)
+    labelled = [pair.value_span for pair in an.pairs if pair.source != "header"]
+    out.sort(key=lambda r: (not any(s.start <= r.start < s.end for s in labelled), r.start))
+    return out
+
+
+#: Words of a label that names the document's own date ("Date", "Date of letter", "Date
+#: recorded"): besides "date" itself, only these.
+_OWN_DATE_WORDS = frozenset(
+    "date dated of the this on letter memo note notes form record recorded document issue issued written prepared report".split()
+)
+
+
+def _own_date_spans(an: Analysis) -> list[Span]:
+    """Where the document states its own date: the Date header, the date line of a letter,
+    the value of a label that names the document's date."""
+    spans = [header.span for header in an.doc.headers if header.date is not None]
+    if an.dateline is not None:
+        spans.append(Span(an.dateline.start, an.dateline.end))
+    for pair in an.pairs:
+        words = set(pair.label.split())
+        if words & {"date", "dated"} and words <= _OWN_DATE_WORDS:
+            spans.append(pair.value_span)
+    return spans
+
+
+@lru_cache(maxsize=1024)
+def _distractor_stems(description: str) -> frozenset[str]:
+    """The content words of a description's sentences that say what the field is not ("Not
+    the preview or rehearsal date" → preview, rehears)."""
+    sentences = [sentence for sentence in re.split(r"(?<=[.!?;])\s+", description) if _NEGATION_WORDS.search(sentence)]
+    return content_stems(" ".join(sentences)) if sentences else frozenset()
+
+
+_NEGATION_WORDS = re.compile(r"\b(?:not|excludes?|excluding|without|never|except|nor|other than|rather than)\b", re.IGNORECASE)
+
+
+def _named_before(an: Analysis, start: int) -> frozenset[str]:
+    """The content words before a value on its line (its label, or the words leading to it)."""
+    line = an.line_of(start)
+    return content_stems(an.text[max(line.start, start - 60) : start])
+
+
+def _open_title_pairs(an: Analysis) -> list[LabelPair]:
+    """Label/value pairs that may hold a job title no field took: no job-title field's cues
+    name the label, and no field of another kind whose cues name it can read the value
+    ("Step up to: Night Shift Lead" is no site, whatever the cue "to" says).  A label that
+    is a person's name is a signature or an address block, not a label."""
+    out = []
+    rows = {row[0].start for table in an.doc.tables for row in table.rows if row}
+    for pair in an.pairs:
+        if pair.source == "header" or not len(pair.value_span):
+            continue
+        if pair.source == "next_line" and any(pair.value_span.start <= start < pair.value_span.end for start in rows):
+            continue  # a heading over a table: the row is read as its own label and value
+        label = an.text[pair.label_span.start : pair.label_span.end]
+        found = leading_name(label.strip(" *_#"))
+        if found is not None and not is_partial_name(found[2]) and len(found[2]) >= len(label.strip(" *_#:")) - 1:
+            continue
+        _, claimers = _claims(an, pair)
+        owners = [an.schema.field(name) for name in claimers]
+        if any(owner.hints.kind == "job_title" for owner in owners):
+            continue  # a title field's own label: label.v1 reads it
+        if any(
+            r.value is not None and r.quality > 0 for owner in owners for r in kinds.read(an, owner, pair.value_span.start, pair.value_span.end)
+        ):
+            continue  # the value is the claiming field's
+        out.append(pair)
+    return out
 
 
 _MONTH = r"(?:jan|feb|mar|apr|may|jun|jul|aug|sep|oct|nov|dec)[a-z]*\.?"

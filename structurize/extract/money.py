@@ -303,3 +303,47 @@ def words_to_number(phrase: str) -> int | None:
         else:
             return None
     return total + current if seen else None
+
+
+def periods_in(text: str) -> set[str]:
+    """Every pay period named in ``text`` ("annual salary or hourly rate" → {year, hour})."""
+    return {_UNIT[match["adverb"].lower()] for match in _PERIOD_WORD.finditer(text)}
+
+
+def period_unit(word: str) -> str | None:
+    """The period a word or phrase names ("per annum", "Hourly", "year") or None."""
+    folded = re.sub(r"^(?:per|an?|each|every)\s+", "", " ".join(word.lower().split()))
+    return _UNIT.get(folded) or _UNIT.get(folded.rstrip("s"))
+
+
+#: How many of each period make a year, as a range (common practice, no source): 12
+#: months, 52 weeks, 220–366 working or calendar days, 1,500–2,600 working hours.
+_PER_YEAR = {"year": (1, 1), "month": (12, 12), "week": (52, 52), "day": (220, 366), "hour": (1500, 2600)}
+_SAME_PAY_TOLERANCE = Decimal("0.05")
+
+
+def same_pay(first: Decimal, first_period: str, second: Decimal, second_period: str) -> bool:
+    """Whether two amounts in two periods can be the same pay ("5,600 per month" and
+    "67,200 per annum"): their yearly ranges meet, within 5 %."""
+    if first_period not in _PER_YEAR or second_period not in _PER_YEAR or first <= 0 or second <= 0:
+        return False
+    low_a, high_a = (first * n for n in _PER_YEAR[first_period])
+    low_b, high_b = (second * n for n in _PER_YEAR[second_period])
+    slack = 1 + _SAME_PAY_TOLERANCE
+    return low_a <= high_b * slack and low_b <= high_a * slack
+
+
+#: The words between two amounts that state the same pay twice: "5,600 per month, i.e.
+#: 67,200 per annum", "$20 an hour, or about $41,600 a year", "(that is $41,600 a year)",
+#: "equivalent to", "= ...", a restatement in brackets.
+RESTATEMENT = re.compile(
+    r"^[\s,;:(\[]*(?:(?:i\.?\s?e\.?|that\s+is|that's|which\s+is|which\s+comes\s+to|(?:which\s+)?works?\s+out\s+(?:at|to)|"
+    r"equivalent\s+to|the\s+equivalent\s+of|equal\s+to|equating\s+to|amounting\s+to|in\s+other\s+words|or|=|being|so)"
+    r"(?![\w])[\s,:]*)*(?:(?:approximately|approx\.?|about|around|roughly|some|circa|c\.|nearly|almost|just\s+over|just\s+under)\s*)?$",
+    re.IGNORECASE,
+)
+
+
+def restatement_between(text: str) -> bool:
+    """``text`` (what lies between two amounts) says the second restates the first."""
+    return len(text) <= 45 and "\n\n" not in text and bool(RESTATEMENT.match(text))

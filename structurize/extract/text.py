@@ -689,3 +689,30 @@ def is_partial_name(name: str) -> bool:
 
 def name_tokens(name: str) -> list[str]:
     return [token for token in fold(name).replace("-", " - ").split() if token not in ("-",)]
+
+
+#: Words that name a system, a mailbox or an organisation rather than a person ("Careers
+#: Portal", "HR System", "no-reply", "Notifications", "Acme Co.") in a display name
+#: (common practice, no source).
+SYSTEM_WORDS = frozenset(
+    """portal system systems careers career jobs recruiting recruitment talent acquisition hiring noreply no-reply
+    donotreply do-not-reply notification notifications alert alerts mailer daemon mailer-daemon postmaster bot robot
+    automated automatic auto autoreply workflow scheduler scheduling calendar onboarding benefits payroll hr helpdesk
+    help desk support service services admin administrator info information updates update news newsletter mailbox
+    inbox team office department dept reception human resources people co inc ltd llc plc gmbh corp corporation
+    company group""".split()
+)
+
+
+def system_sender(display: str) -> bool:
+    """A display name that names a system, a mailbox or an organisation, not a person:
+    made of :data:`SYSTEM_WORDS` and names with no personal name leading it ("Acme Careers
+    Portal", "HR System", "no-reply"); "Ana Ruiz (HR)" and "Ana Ruiz via Portal" are people."""
+    words = [word.lower().strip("'’.-") for word in re.findall(r"[\w'’.-]+", display)]
+    if not any(word in SYSTEM_WORDS or any(part in SYSTEM_WORDS for part in word.split("-")) for word in words):
+        return False
+    found = leading_name(display)
+    if found is not None and not is_partial_name(found[2]):
+        if not any(word.lower().strip("'’.-") in SYSTEM_WORDS for word in found[2].split()):
+            return False  # a person's name first, then the system or team they write for
+    return True

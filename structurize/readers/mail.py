@@ -42,7 +42,7 @@ from pathlib import Path
 
 from ..errors import ReadFailure
 from ..options import ExtractOptions, Limits
-from ..types import Address, Document, DocStatus, Header, Region, Span
+from ..types import Address, Document, DocStatus, Header, Span
 from .builder import TextBuilder, clean
 from .decode import MOJIBAKE, _too_large, decode_fallback
 from .html import html_to_builder
