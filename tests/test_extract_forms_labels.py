@@ -100,6 +100,9 @@ LABEL_WORDINGS = [
     pytest.param("Payroll no.", "employee number", id="payroll-no"),
     pytest.param("Authorised by", "approved by", id="authorised-by"),
     pytest.param("Signed off by", "approved by", id="signed-off-by"),
+    pytest.param("Final sign-off", "final approval", id="final-sign-off"),
+    pytest.param("Departing employee", "employee", id="departing-employee"),
+    pytest.param("Outgoing employee", "employee", id="outgoing-employee"),
     pytest.param("Notes by", "interviewed by", id="notes-by"),
     pytest.param("Taken by", "interviewed by", id="taken-by"),
     pytest.param("Exit interview by", "interviewed by", id="exit-interview-by"),
@@ -121,6 +124,7 @@ LABEL_MISREADINGS = [
     pytest.param("Destination", "current site", id="destination-is-not-current"),
     pytest.param("Start in new role", "new role", id="known-phrase-read-whole"),
     pytest.param("Staff no.", "employee name", id="number-is-not-name"),
+    pytest.param("Departing employee", "new title", id="leaver-is-not-a-title"),
 ]
 
 

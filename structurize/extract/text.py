@@ -80,6 +80,8 @@ LABEL_PHRASES = {
     "based at": "site", "based in": "site", "new base": "new site", "current base": "current site", "home base": "current site",
     "moving to": "transfer to", "move to": "transfer to", "relocating to": "transfer to", "transferring to": "transfer to",
     "signed off by": "approved by", "signed off": "approved", "signed-off by": "approved by",
+    "sign-off": "approval", "sign off": "approval", "signoff": "approval",
+    "departing employee": "employee", "leaving employee": "employee", "outgoing employee": "employee", "exiting employee": "employee",
     "notes taken by": "interviewed by", "exit interview conducted by": "interview conducted by", "interviewing manager": "interviewer",
     "date of issue": "dated", "issue date": "dated",
 }
