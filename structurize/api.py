@@ -12,6 +12,7 @@ import time
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from itertools import islice
 from dataclasses import dataclass, field, replace
+from functools import cached_property
 from pathlib import Path
 from typing import Any
 
@@ -22,7 +23,7 @@ from .extract import extract_candidates
 from .extract.ner import Entity, NerModel, NoNer, load_model
 from .options import ExtractOptions
 from .readers import read_document
-from .resolve import resolve_document
+from .resolve import resolve_document, unread_values
 from .schema import TargetSchema, load_schema
 from .spool import ResultSpool
 from .types import Document, DocumentResult, DocStatus, FieldValue, ValueStatus
@@ -74,21 +75,38 @@ class ExtractionResult:
 
     def status_counts(self) -> dict[str, int]:
         """Documents per status, in the order of :class:`DocStatus`."""
-        counts = {str(status): 0 for status in DocStatus}
-        for doc in self.documents:
-            counts[str(doc.status)] += 1
-        return {status: n for status, n in counts.items() if n}
+        return dict(self._tally.statuses)
 
     def counts(self) -> dict[str, int]:
         """Documents read and failed; values by status."""
-        counts = {"documents": len(self.documents), "read": 0, "not_read": 0}
-        for status in ValueStatus:
-            counts[str(status)] = 0
+        return dict(self._tally.counts)
+
+    def problems(self) -> list[tuple[str, DocStatus, str, str]]:
+        """``(source, status, reason, note)`` of every document not read cleanly, in path order."""
+        return list(self._tally.problems)
+
+    @cached_property
+    def _tally(self) -> _Tally:
+        # one pass over the documents (a spool reads them from disk) for all the summaries
+        statuses = {str(status): 0 for status in DocStatus}
+        counts = {"documents": 0, "read": 0, "not_read": 0} | {str(status): 0 for status in ValueStatus}
+        problems = []
         for doc in self.documents:
+            statuses[str(doc.status)] += 1
+            counts["documents"] += 1
             counts["read" if doc.status.readable else "not_read"] += 1
             for item in doc.values:
                 counts[str(item.status)] += 1
-        return counts
+            if doc.status is not DocStatus.OK:
+                problems.append((doc.source, doc.status, doc.reason, doc.note))
+        return _Tally({status: n for status, n in statuses.items() if n}, counts, tuple(problems))
+
+
+@dataclass(frozen=True)
+class _Tally:
+    statuses: dict[str, int]
+    counts: dict[str, int]
+    problems: tuple[tuple[str, DocStatus, str, str], ...]
 
 
 def table_row(doc: DocumentResult, names: Sequence[str]) -> dict[str, str]:
@@ -324,10 +342,10 @@ def _finish_document(doc: Document, schema: TargetSchema, entities: tuple[Entity
         raise
     except _NerFailed:
         status, reason, note = DocStatus.FAILED, "extract_error", "named-entity recognition failed on this document"
-        values = _unread_values(schema, reason)
+        values = unread_values(schema, reason)
     except Exception as exc:  # noqa: BLE001 - an extractor bug must fail one document only
         status, reason, note = DocStatus.FAILED, "extract_error", f"extraction failed ({type(exc).__name__})"
-        values = _unread_values(schema, reason)
+        values = unread_values(schema, reason)
     return DocumentResult(
         source=doc.source,
         sha256=doc.sha256,
@@ -347,7 +365,7 @@ def _finish_document(doc: Document, schema: TargetSchema, entities: tuple[Entity
 def process_text(doc: Document, schema: TargetSchema, entities: tuple[Entity, ...], options: ExtractOptions) -> tuple[FieldValue, ...]:
     """Extract, resolve and validate every field of one read document (its NER entities given)."""
     if not doc.status.readable:
-        return _unread_values(schema, doc.reason or str(doc.status))
+        return unread_values(schema, doc.reason or str(doc.status))
     analysis, candidates = extract_candidates(doc, schema, entities)
     resolved = resolve_document(schema, analysis, candidates)
     out = []
@@ -357,11 +375,6 @@ def process_text(doc: Document, schema: TargetSchema, entities: tuple[Entity, ..
             item = replace(item, page=doc.page_of(item.span.start), snippet=doc.snippet(item.span, options.snippet_width))
         out.append(item)
     return tuple(out)
-
-
-def _unread_values(schema: TargetSchema, reason: str) -> tuple[FieldValue, ...]:
-    note = f"document not read ({reason})"
-    return tuple(FieldValue(spec.name, None, 0.0, ValueStatus.MISSING, reason=note) for spec in schema.fields)
 
 
 # --- a folder --------------------------------------------------------------------------------
@@ -430,7 +443,3 @@ def extract_folder(
 def count_inputs(input_path: str | Path) -> int:
     root = Path(input_path)
     return sum(1 for _ in discover(root, ordered=False)) if root.exists() else 0
-
-
-def failed_documents(result: ExtractionResult) -> list[DocumentResult]:
-    return [doc for doc in result.documents if doc.status is not DocStatus.OK and not doc.status.readable]

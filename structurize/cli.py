@@ -20,9 +20,8 @@ from rich.console import Console
 from . import api
 from .errors import StructurizeError, UsageError
 from .options import PASSWORD_ENV, ExtractOptions
-from .types import DocStatus
 from .schema import TargetSchema, load_schema
-from .store import Store, network_filesystem
+from .store import Store
 from .score import score_path
 from .write import write_outputs
 
@@ -55,7 +54,7 @@ QuietOpt = Annotated[bool, typer.Option("--quiet", "-q", help="No progress bar a
 def _fail(message: str, code: int) -> typer.Exit:
     """Print an error (one line, or one line per problem of a schema) and say how to exit."""
     for line in message.splitlines() or [""]:
-        err.print(f"structurize: {line.removeprefix('structurize: ')}", markup=False)
+        err.print(f"structurize: {line}", markup=False)
     return typer.Exit(code)
 
 
@@ -105,7 +104,7 @@ def extract_command(
             if opened is not None:
                 opened.close()
     except StructurizeError as exc:
-        raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None
+        raise _fail(str(exc), exc.exit_code) from None
     if failed:
         raise typer.Exit(EXIT_DOCUMENTS_FAILED)
 
@@ -141,11 +140,10 @@ def _jobs(input_path: Path, schema: Path, output: Path) -> list[tuple[Path, Path
 
 def _open_store(path: Path, *, lock: bool, quiet: bool, create: bool = True) -> Store:
     opened = Store.open(path, create=create)
-    remote = network_filesystem(path)
-    if lock and remote and not quiet:
-        err.print(f"structurize: {_escape(str(path))}: warning: the store is on a network file system ({remote}); "
-                  "SQLite's locking is not reliable there: keep it on a local disk", markup=False)
     if lock:
+        warning = opened.location_warning()
+        if warning and not quiet:
+            err.print(f"structurize: {_escape(str(path))}: {warning}", markup=False)
         try:
             message = opened.acquire()
         except StructurizeError:
@@ -190,7 +188,7 @@ def _run_one(folder: Path, target: TargetSchema, out_dir: Path, options: Extract
     _report_documents(result, quiet)
     if not quiet:
         _summary(target.name, result, paths["table"].parent)
-    return sum(1 for doc in result.documents if not doc.status.readable)
+    return result.counts()["not_read"]
 
 
 def _write(result: api.ExtractionResult, out_dir: Path, bom: bool) -> dict[str, Path]:
@@ -204,11 +202,9 @@ def _write(result: api.ExtractionResult, out_dir: Path, bom: bool) -> dict[str, 
 
 
 def _report_documents(result: api.ExtractionResult, quiet: bool) -> None:
-    for doc in result.documents:
-        if doc.status is DocStatus.OK:
-            continue
-        note = doc.note or NOTES.get(doc.reason or str(doc.status), doc.status.value.replace("_", " "))
-        err.print(f"structurize: {_escape(doc.source)}: {doc.reason or doc.status}: {note}", markup=False)
+    for source, status, reason, note in result.problems():
+        note = note or NOTES.get(reason or str(status), status.value.replace("_", " "))
+        err.print(f"structurize: {_escape(source)}: {reason or status}: {note}", markup=False)
 
 
 def _summary(name: str, result: api.ExtractionResult, where: Path) -> None:
@@ -292,7 +288,7 @@ def runs_command(store: Annotated[Path, typer.Option("--store", help="The worksp
     try:
         opened = _open_store(store, lock=False, quiet=True, create=False)
     except StructurizeError as exc:
-        raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None
+        raise _fail(str(exc), exc.exit_code) from None
     with opened:
         rows = opened.runs()
     from rich.table import Table
@@ -316,7 +312,7 @@ def run_command(
     try:
         opened = _open_store(store, lock=False, quiet=True, create=False)
     except StructurizeError as exc:
-        raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None
+        raise _fail(str(exc), exc.exit_code) from None
     with opened:
         run = opened.run(run_id)
     if run is None:
@@ -355,7 +351,7 @@ def export_command(
         result = api.ExtractionResult(schema=target, documents=documents, settings={"run": run_id})
         paths = _write(result, output, not plain_csv)
     except StructurizeError as exc:
-        raise _fail(str(exc).removeprefix("structurize: "), exc.exit_code) from None
+        raise _fail(str(exc), exc.exit_code) from None
     if not quiet:
         _summary(target.name, result, paths["table"].parent)
 

@@ -208,20 +208,32 @@ def resolve_field(spec: FieldSpec, candidates: list[Candidate], *, review_below:
     )
 
 
+def unread_values(schema: TargetSchema, reason: str) -> tuple[FieldValue, ...]:
+    """Every field of a document that was not read (or whose worker did not come back): empty."""
+    note = f"document not read ({reason})"
+    return tuple(FieldValue(spec.name, None, 0.0, ValueStatus.MISSING, reason=note) for spec in schema.fields)
+
+
 def _unread_gap(spec: FieldSpec, sign: Candidate, review_below: float) -> FieldValue:
     """No value, but the document shows one is there (a label or cue with nothing readable):
     a gap a reviewer should look at, not a value that is simply absent."""
-    confidence = min(sign.score, review_below - 0.05)
+    return _review_gap(spec, sign.span, sign.raw, sign.extractor, min(sign.score, review_below - 0.05), sign.evidence, "; ".join(sign.evidence))
+
+
+def _review_gap(spec: FieldSpec, span: Span, raw: str, extractor: str, confidence: float, evidence: tuple[str, ...], why: str,
+                alternatives: tuple[Alternative, ...] = ()) -> FieldValue:
+    """An empty field sent to review because a value may be present but was not read."""
     return FieldValue(
         field=spec.name,
         value=None,
         confidence=round(max(0.0, confidence), 3),
         status=ValueStatus.REVIEW,
-        span=sign.span,
-        raw=sign.raw,
-        extractor=sign.extractor,
-        reason="a value may be present but was not read: " + "; ".join(sign.evidence),
-        evidence=sign.evidence,
+        span=span,
+        raw=raw,
+        extractor=extractor,
+        reason="a value may be present but was not read: " + why,
+        evidence=evidence,
+        alternatives=alternatives,
     )
 
 
@@ -248,9 +260,7 @@ def period_candidate(spec: FieldSpec, money_value: FieldValue, money_candidates:
     another mention of the same amount ("Salary: £38,500" ... "(£38,500) a year") 0.88; only
     named near the amount ("Annual salary: ...") 0.75.
     """
-    chosen = next(
-        (c for c in money_candidates if c.extractor == money_value.extractor and c.span == money_value.span), None
-    )
+    chosen = _chosen(money_value, money_candidates)
     if chosen is None or money_value.value is None:
         return None
     source, score, where = chosen, 0.92, "written next to the amount"
@@ -436,22 +446,12 @@ def untaken_gap(spec: FieldSpec, value: FieldValue, mentions: list[Any], sign: f
     alternatives = tuple(
         Alternative(m.value, round(sign * m.quality, 3), Span(m.start, m.end)) for m in mentions[:UNTAKEN_ALTERNATIVES]
     )
-    first = mentions[0]
     if value.status is ValueStatus.REVIEW:
         return replace(value, alternatives=value.alternatives + alternatives)
     kind = spec.hints.kind.replace("_", " ")
-    return FieldValue(
-        field=spec.name,
-        value=None,
-        confidence=round(min(sign, review_below - 0.05), 3),
-        status=ValueStatus.REVIEW,
-        span=Span(first.start, first.end),
-        raw="",
-        extractor="unread.v1",
-        reason=f"a value may be present but was not read: the document holds {len(mentions)} {kind} value(s) no field took",
-        evidence=(f"{kind} values no field took",),
-        alternatives=alternatives,
-    )
+    first = mentions[0]
+    return _review_gap(spec, Span(first.start, first.end), "", "unread.v1", min(sign, review_below - 0.05), (f"{kind} values no field took",),
+                       f"the document holds {len(mentions)} {kind} value(s) no field took", alternatives)
 
 
 # --- one document's fields ------------------------------------------------------------------

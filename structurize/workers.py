@@ -33,7 +33,8 @@ from typing import Any
 from .errors import ModelMissing, StructurizeError
 from .options import ExtractOptions, default_workers
 from .schema import TargetSchema
-from .types import DocStatus, DocumentResult, FieldValue, ValueStatus
+from .resolve import unread_values
+from .types import DocStatus, DocumentResult
 
 Task = tuple[Path, str]
 #: Seconds a worker may take to start (import and load the NER pipeline).
@@ -80,9 +81,7 @@ def failed_result(schema: TargetSchema, source: str, reason: str, note: str, sec
                   path: Path | None = None) -> DocumentResult:
     """The result for a document whose worker did not come back (with its ``path``, the
     row still names the file's reader and the hash of its bytes)."""
-    values = tuple(
-        FieldValue(spec.name, None, 0.0, ValueStatus.MISSING, reason=f"document not read ({reason})") for spec in schema.fields
-    )
+    values = unread_values(schema, reason)
     reader, sha256 = "", ""
     if path is not None:
         from .readers import file_sha256, reader_for
@@ -299,10 +298,6 @@ class _TaskQueue:
                 self._items.append((next(self._source), False))
             except StopIteration:
                 self._exhausted = True
-
-    def __len__(self) -> int:
-        """Tasks known to be waiting (the input may hold more)."""
-        return len(self._items)
 
     def __bool__(self) -> bool:
         self._fill(1)

@@ -38,6 +38,7 @@ from typing import Any, BinaryIO
 
 from .api import ExtractionResult, document_row, table_row, value_rows
 from .faults import fault_point
+from .readers import file_sha256
 from .schema.model import FieldSpec, TargetSchema
 from .types import DocumentResult, ValueStatus
 
@@ -269,7 +270,7 @@ def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = 
     if fingerprint and _unchanged(out, fingerprint, paths):
         return paths  # the same inputs, values and settings as the outputs already there
     counter = _Sanitiser()
-    counts = FieldCounts(schema)
+    counts = FieldCounts()
     names = schema.field_names
     table_columns = ["document", *names]
     with OutputFiles() as files:
@@ -291,7 +292,7 @@ def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = 
         files.open(paths["datapackage"]).write((_no_surrogates(json.dumps(descriptor, indent=2, ensure_ascii=False)) + "\n").encode("utf-8"))
     manifest = out / MANIFEST_FILE
     if fingerprint:
-        digests = {name: _file_digest(path) for name, path in paths.items()}
+        digests = {name: file_sha256(path) for name, path in paths.items()}
         atomic_write(manifest, json.dumps({"fingerprint": fingerprint, "files": digests}, sort_keys=True).encode("utf-8"))
     elif manifest.exists():
         manifest.unlink()
@@ -302,19 +303,12 @@ def write_outputs(result: ExtractionResult, out_dir: str | Path, *, bom: bool = 
 MANIFEST_FILE = ".structurize-outputs.json"
 
 
-def _file_digest(path: Path) -> str:
-    import hashlib
-
-    with path.open("rb") as handle:
-        return hashlib.file_digest(handle, "sha256").hexdigest()
-
-
 def _unchanged(out: Path, fingerprint: str, paths: dict[str, Path]) -> bool:
     try:
         manifest = json.loads((out / MANIFEST_FILE).read_text(encoding="utf-8"))
         if manifest.get("fingerprint") != fingerprint:
             return False
-        return all(_file_digest(path) == manifest["files"][name] for name, path in paths.items())
+        return all(file_sha256(path) == manifest["files"][name] for name, path in paths.items())
     except (OSError, ValueError, KeyError, TypeError):
         return False
 
@@ -424,7 +418,7 @@ class FieldCounts:
     """Per field: documents, filled values and values flagged for review, counted one
     document at a time (for the data dictionary)."""
 
-    def __init__(self, schema: TargetSchema) -> None:
+    def __init__(self) -> None:
         self.readable = 0
         self.total: Counter[str] = Counter()
         self.filled: Counter[str] = Counter()
@@ -443,7 +437,7 @@ class FieldCounts:
 
 def data_dictionary(result: ExtractionResult) -> list[dict[str, Any]]:
     """One row per field: title, type, definition, allowed values, fill rate, review share."""
-    counts = FieldCounts(result.schema)
+    counts = FieldCounts()
     for doc in result.documents:
         counts.add(doc)
     return dictionary_rows(result.schema, counts)

@@ -20,7 +20,7 @@ from . import dates as datelib
 from .layout import LabelPair, find_pairs
 from .money import MoneyMention, find_money
 from .ner import Entity
-from .text import PhraseSet, fold, is_partial_name, leading_name, name_core, norm, normalise_name, system_sender
+from .text import TITLES, PhraseSet, fold, is_partial_name, leading_name, name_core, norm, normalise_name, system_sender
 from .vocab import Vocabulary, vocabulary_for
 
 EXCLUDED_REGIONS = ("quoted", "forwarded", "attachment")
@@ -63,7 +63,6 @@ _WRITTEN_BY = re.compile(
     r"\b(?:written|prepared|recorded|compiled|completed|drafted|notes taken|minuted|filled in)\s+by\s*:?\s*|\bauthor\s*:\s*",
     re.IGNORECASE,
 )
-_COURTESY = re.compile(r"^(?:mr|mrs|ms|miss|mx|dr|prof)\.?$", re.IGNORECASE)
 _MEMO_LABELS = frozenset({"from", "to", "cc", "bcc", "date", "re", "subject", "sent", "attn", "attention", "memo", "memorandum", "ref"})
 _MEMO_PARTIES = frozenset({"from", "to", "cc", "bcc", "attn", "attention"})
 _FIRST_PERSON = re.compile(r"^(?:i|me|myself|i am|i'm|i've|i will)$", re.IGNORECASE)
@@ -508,7 +507,7 @@ class Analysis:
     def complete_name(self, name: str) -> str | None:
         """Expand a short name ("Carlos", "Ms. Rahman", "F. MacAllister", "De Luca") to the
         full one, when exactly one full name in the document fits it."""
-        name = " ".join(word for word in name.split() if not _COURTESY.match(word))
+        name = " ".join(word for word in name.split() if not TITLES.match(word))
         if not name:
             return None
         if not is_partial_name(name):

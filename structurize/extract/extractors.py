@@ -37,10 +37,11 @@ from ..schema.model import FieldSpec
 from ..types import Alternative, Candidate, Span
 from . import kinds
 from .analysis import Analysis, CueHit, Person
+from .dates import MONTH_NAMES
 from .kinds import Reading
 from .layout import KIND_HEADINGS, LabelPair
-from .vocab import Vocabulary
-from .text import (GENERIC_LABEL_WORDS, PhraseSet, agent_cue, agent_label, content_stems, cue_match, field_word_stems, is_partial_name, leading_name,
+from .vocab import BOX, Vocabulary
+from .text import (GENERIC_LABEL_WORDS, PhraseSet, agent_cue, agent_label, content_stems, cue_match, field_word_stems, is_partial_name, leading_name, negated_stems,
                    norm, stem, stems_meet, synonym_variants, system_sender)
 
 #: Below this cue/label match a label is not taken as naming the field.
@@ -321,18 +322,19 @@ def _prose_candidates(
         limit = min(len(an.text), hit.end + PROSE_REACH, max(sentence_end, hit.end + 1))
         weight = factor * PROSE_WEIGHT * (1.0 if len(hit.cue.split()) > 1 else 0.85)
         evidence = (note,)
-        if kind == "person" and not an.excluded(hit.start) and _first_person_agent(an, hit, sentence_start):
-            # "I have approved Ana's request": the one who approves is whoever wrote it
-            resolved = _resolve_first_person(an, spec, Reading(None, hit.start, hit.end, 1.0))
-            if resolved is not None:
-                yield _candidate(spec, resolved, name, weight, evidence + ("the writer is the subject of the cue",), an)
-            continue
-        if kind == "person" and _AUTHOR_CUE.search(hit.cue) and not an.excluded(hit.start):
-            # "I approve the transfer": the person is whoever wrote the document
-            resolved = _resolve_first_person(an, spec, Reading(None, hit.start, hit.end, 1.0))
-            if resolved is not None:
-                yield _candidate(spec, resolved, name, weight, evidence + ("first-person cue",), an)
-            continue
+        if kind == "person" and not an.excluded(hit.start):
+            # "I have approved Ana's request", "I approve the transfer": whoever wrote it
+            if _first_person_agent(an, hit, sentence_start):
+                why = "the writer is the subject of the cue"
+            elif _AUTHOR_CUE.search(hit.cue):
+                why = "first-person cue"
+            else:
+                why = ""
+            if why:
+                resolved = _resolve_first_person(an, spec, Reading(None, hit.start, hit.end, 1.0))
+                if resolved is not None:
+                    yield _candidate(spec, resolved, name, weight, evidence + (why,), an)
+                continue
         if kind == "choice":
             ranked = _ranked_choice(an, spec, hit, sentence_start, limit)
             if ranked is not None:
@@ -377,7 +379,6 @@ def _prose_candidates(
 
 
 _ANSWER_LEAD = re.compile(r"[\s*_>]*(?:(?:a|answer|ans)\s*[:.)–—-]\s*)?[\s*_]*", re.IGNORECASE)
-_BOXES = re.compile(r"\[[ xX✓✔]\]|[☐☒☑]|\([ xX]\)")
 _ANSWER_END = re.compile(r"[,.;:!?()\n]|\s[-–—]|[–—]")
 
 
@@ -386,7 +387,7 @@ def _answer_reading(an: Analysis, spec: FieldSpec, start: int) -> Reading | None
     text = an.text
     lead = _ANSWER_LEAD.match(text, start, min(len(text), start + 40))
     begin = lead.end() if lead else start
-    if _BOXES.search(text, begin, an.line_of(begin).end + 1):
+    if BOX.search(text, begin, an.line_of(begin).end + 1):
         return None  # "Yes [ ] No [x]": check boxes, read as ticked boxes elsewhere
     stop = _ANSWER_END.search(text, begin, min(len(text), begin + 40))
     end = stop.start() if stop else min(len(text), begin + 40)
@@ -623,8 +624,9 @@ def _system_sender(an: Analysis, spec: FieldSpec, address, span: Span, evidence:
     yield Candidate(spec.name, None, address.name, at, "header.v1", SYSTEM_SENDER, note, frozenset({"stated_missing", "system_sender"}),
                     alternatives=(Alternative(address.name, 0.3, at),))
     signer = an.roles.signer
-    if signer is not None and not is_partial_name(signer.name):
-        yield Candidate(spec.name, signer.name, an.text[signer.start : signer.end], Span(signer.start, signer.end), "header.v1", 0.6,
+    name = (an.complete_name(signer.name) or signer.name) if signer is not None else ""
+    if signer is not None and not is_partial_name(name):
+        yield Candidate(spec.name, name, an.text[signer.start : signer.end], Span(signer.start, signer.end), "header.v1", 0.6,
                         evidence + ("display name names no person: the body's signer",))
 
 
@@ -1106,7 +1108,7 @@ def untaken_mentions(an: Analysis, spec: FieldSpec, taken: dict[str, tuple[objec
     else:
         readings = [r for pair in _open_title_pairs(an) if (r := _kind_reading(an, spec, pair.value_span)) is not None]
     own = _own_date_spans(an) if kind == "date" else []
-    distractors = _distractor_stems(spec.description or "")
+    distractors = negated_stems(spec.description or "")
     out = []
     for reading in readings:
         if an.excluded(reading.start) or "superseded" in reading.flags:
@@ -1143,17 +1145,6 @@ def _own_date_spans(an: Analysis) -> list[Span]:
     return spans
 
 
-@lru_cache(maxsize=1024)
-def _distractor_stems(description: str) -> frozenset[str]:
-    """The content words of a description's sentences that say what the field is not ("Not
-    the preview or rehearsal date" → preview, rehears)."""
-    sentences = [sentence for sentence in re.split(r"(?<=[.!?;])\s+", description) if _NEGATION_WORDS.search(sentence)]
-    return content_stems(" ".join(sentences)) if sentences else frozenset()
-
-
-_NEGATION_WORDS = re.compile(r"\b(?:not|excludes?|excluding|without|never|except|nor|other than|rather than)\b", re.IGNORECASE)
-
-
 def _named_before(an: Analysis, start: int) -> frozenset[str]:
     """The content words before a value on its line (its label, or the words leading to it)."""
     line = an.line_of(start)
@@ -1188,7 +1179,7 @@ def _open_title_pairs(an: Analysis) -> list[LabelPair]:
     return out
 
 
-_MONTH = r"(?:jan|feb|mar|apr|may|jun|jul|aug|sep|oct|nov|dec)[a-z]*\.?"
+_MONTH = rf"(?:{MONTH_NAMES})\.?"
 _MONTH_AND_YEAR = re.compile(rf"\b{_MONTH}(?!\w).*\b(?:1[89]|20)\d\d\b|\b(?:1[89]|20)\d\d\b.*\b{_MONTH}(?!\w)", re.IGNORECASE)
 
 

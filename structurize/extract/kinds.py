@@ -351,8 +351,10 @@ def read_identifier(an: Analysis, spec: FieldSpec, start: int, end: int) -> list
     budget = patterns.budget_for(an)
     shape = id_shape(pattern.pattern)
     try:
-        out = _shaped_identifiers(an.text, start, end, pattern, shape, budget) if shape is not None else []
-        if shape is None:
+        if shape is not None:
+            out = _shaped_identifiers(an.text, start, end, pattern, shape, budget)
+        else:
+            out = []
             for match in _COMPOUND.finditer(an.text, start, end):
                 raw = match.group()
                 value = _identifier_value(raw, pattern, budget)
@@ -366,9 +368,9 @@ def read_identifier(an: Analysis, spec: FieldSpec, start: int, end: int) -> list
     return out or _missing_list(an, start, end)
 
 
-def _identifier_value(raw: str, pattern: patterns.UserPattern, budget: patterns.Budget | None = None) -> str | None:
+def _identifier_value(raw: str, pattern: patterns.UserPattern, budget: patterns.Budget) -> str | None:
     """``raw`` (or it without separators, upper-cased, dashed) if it matches; raises PatternTimeout."""
-    fullmatch = budget.fullmatch if budget is not None else (lambda p, text: p.fullmatch(text))
+    fullmatch = budget.fullmatch
     if fullmatch(pattern, raw):
         return raw
     bare = _ID_SEPARATORS.sub("", raw)
@@ -531,10 +533,10 @@ def _kinds_differ(a: IdPart, b: IdPart) -> bool:
 
 
 def _shaped_identifiers(
-    text: str, start: int, end: int, pattern: patterns.UserPattern, shape: IdShape, budget: patterns.Budget | None
+    text: str, start: int, end: int, pattern: patterns.UserPattern, shape: IdShape, budget: patterns.Budget
 ) -> list[Reading]:
     """Identifiers in ``text[start:end]`` written in any of the loose forms, in the pattern's own form."""
-    fullmatch = budget.fullmatch if budget is not None else (lambda p, value: p.fullmatch(value))
+    fullmatch = budget.fullmatch
     neighbours = _neighbours(shape)
     out = []
     for match in shape.loose.finditer(text, start, end):

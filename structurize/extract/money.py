@@ -265,10 +265,7 @@ def _period_after(text: str, end: int) -> tuple[str | None, int]:
     match = _PERIOD_AFTER.match(window)
     if not match:
         return None, end
-    word = re.sub(r"\s+", " ", (match["unit"] or match["adverb"] or "").lower())
-    if word not in _UNIT:
-        word = word.replace(".", "") if word.replace(".", "") in _UNIT else word.rstrip("s")
-    return _UNIT.get(word), end + match.end()
+    return period_unit(match["unit"] or match["adverb"] or ""), end + match.end()
 
 
 def period_in(text: str) -> str | None:
@@ -312,8 +309,9 @@ def periods_in(text: str) -> set[str]:
 
 def period_unit(word: str) -> str | None:
     """The period a word or phrase names ("per annum", "Hourly", "year") or None."""
-    folded = re.sub(r"^(?:per|an?|each|every)\s+", "", " ".join(word.lower().split()))
-    return _UNIT.get(folded) or _UNIT.get(folded.rstrip("s"))
+    folded = re.sub(r"^(?:(?:per|an?|each|every)\s+|/\s*)", "", " ".join(word.lower().split()))
+    bare = folded.replace(".", "")
+    return next((_UNIT[probe] for probe in (folded, bare, bare.rstrip("s")) if probe in _UNIT), None)
 
 
 #: How many of each period make a year, as a range (common practice, no source): 12

@@ -54,8 +54,7 @@ class NerModel:
             while current < index:
                 yield tuple(found)
                 current, found = current + 1, []
-            if doc.text.strip():
-                found.extend(_entities(doc, offset))
+            found.extend(_entities(doc, offset))
         for _ in range(current, len(texts)):
             yield tuple(found)
             found = []

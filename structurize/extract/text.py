@@ -232,6 +232,14 @@ def stems_meet(a: str, b: str) -> bool:
 
 
 @lru_cache(maxsize=4096)
+@lru_cache(maxsize=1024)
+def negated_stems(description: str) -> frozenset[str]:
+    """The content words of a description's sentences that say what the field is not ("Not
+    the preview or rehearsal date" → preview, rehears)."""
+    sentences = [sentence for sentence in _SENTENCES.split(description) if _NEGATION.search(sentence)]
+    return content_stems(" ".join(sentences)) if sentences else frozenset()
+
+
 def field_word_stems(title: str, name: str, description: str, cues: tuple[str, ...]) -> tuple[frozenset[str], frozenset[str]]:
     """What a field is about, as word stems: ``(strong, weak)``.
 
@@ -471,7 +479,8 @@ _PLACE_WORDS = frozenset(
     co co. company inc inc. ltd llc group services partners team department division""".split()
 )
 _INVISIBLE = dict.fromkeys([0x061C, *range(0x200B, 0x2010), *range(0x202A, 0x202F), *range(0x2060, 0x2065), *range(0x2066, 0x206A)], " ")
-_TITLES = re.compile(r"^(mr|mrs|ms|miss|mx|dr|prof)\.?$", re.IGNORECASE)
+#: A courtesy title written as a word of a name ("Dr", "Mrs.").
+TITLES = re.compile(r"^(mr|mrs|ms|miss|mx|dr|prof)\.?$", re.IGNORECASE)
 _INITIAL = re.compile(r"^[A-Z]\.$")
 _ROMAN = re.compile(r"^(II|III|IV|Jr\.?|Sr\.?)$")
 _TOKEN = re.compile(r"[^\s,;:()|/<>\[\]\"*_`]+")
@@ -578,7 +587,7 @@ def leading_name(text: str, offset: int = 0, max_tokens: int = 4) -> tuple[int, 
         position = match.end()
         if word in ("-", "–", "—", "&"):
             break
-        if not tokens and _TITLES.match(word):
+        if not tokens and TITLES.match(word):
             titled = True
             continue
         lowered = word.lower().strip(".")
@@ -678,7 +687,7 @@ def _case_piece(piece: str) -> str:
 
 def name_core(name: str) -> list[str]:
     """The words of a name other than courtesy titles and particles ("Mr. De Luca" → ["Luca"])."""
-    return [word for word in name.split() if word.lower() not in _PARTICLES and not _TITLES.match(word)]
+    return [word for word in name.split() if word.lower() not in _PARTICLES and not TITLES.match(word)]
 
 
 def is_partial_name(name: str) -> bool:

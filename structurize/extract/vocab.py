@@ -32,7 +32,8 @@ _NEGATION_AFTER = re.compile(
 _UNTICKED = re.compile(r"(?:\[\s\]|☐|\(\s\))\s*$")
 _TICKED = re.compile(r"(?:\[[xX✓✔]\]|☒|☑|\([xX]\))\s*$")
 _BOX_TEXT = r"(?:\[[\sxX✓✔]\]|☐|☒|☑|\([\sxX]\))"
-_BOX = re.compile(_BOX_TEXT)
+#: A check box, ticked or not ("[ ]", "[x]", "☐", "☒", "(x)").
+BOX = re.compile(_BOX_TEXT)
 _BOX_FIRST = re.compile(r"\s*" + _BOX_TEXT)
 _BOX_LAST = re.compile(_BOX_TEXT + r"\s*$")
 _TICKED_NEXT = re.compile(r"\s*(?:\[[xX✓✔]\]|☒|☑|\([xX]\))")
@@ -152,7 +153,7 @@ class Vocabulary:
         # options' boxes follow them ("Yes [ ] No [x]": the line's answers end in a box and do
         # not start with one), to the option it stands after.
         answers = (line_before.rsplit(":", 1)[-1] + text[s:e] + line_after).strip()
-        box_after = bool(_BOX.search(answers)) and not _BOX_FIRST.match(answers) and bool(_BOX_LAST.search(answers))
+        box_after = not _BOX_FIRST.match(answers) and bool(_BOX_LAST.search(answers))
         ticked: bool | None = None
         if box_after:
             if _TICKED_NEXT.match(line_after):

@@ -68,17 +68,21 @@ def read_limited(path: Path, limit: int) -> bytes:
     so a file that grows (or lies about its size) costs at most ``limit`` bytes of memory.
     """
     if path.stat().st_size > limit:
-        raise _too_large(limit)
+        raise too_large(limit)
     with path.open("rb") as handle:
         data = handle.read(limit + 1)
     if len(data) > limit:
-        raise _too_large(limit)
+        raise too_large(limit)
     return data
 
 
-def _too_large(limit: int) -> ReadFailure:
-    shown = f"{limit / (1024 * 1024):g} MB" if limit >= 1024 * 1024 else f"{limit} bytes"
-    return ReadFailure("failed", "too_large", f"the file is larger than the limit ({shown})")
+def shown_size(size: int) -> str:
+    """A byte count as a person reads it: "20 MB", "512 bytes"."""
+    return f"{size / (1024 * 1024):g} MB" if size >= 1024 * 1024 else f"{size} bytes"
+
+
+def too_large(limit: int) -> ReadFailure:
+    return ReadFailure("failed", "too_large", f"the file is larger than the limit ({shown_size(limit)})")
 
 
 def decode_fallback(data: bytes, declared: str, fallbacks: tuple[str, ...] = DEFAULT_FALLBACK_ENCODINGS) -> tuple[str, str]:

@@ -44,7 +44,7 @@ from ..errors import ReadFailure
 from ..options import ExtractOptions, Limits
 from ..types import Address, Document, DocStatus, Header, Span
 from .builder import TextBuilder, clean
-from .decode import MOJIBAKE, _too_large, decode_fallback
+from .decode import MOJIBAKE, decode_fallback, shown_size, too_large
 from .html import html_to_builder
 
 HEADER_ORDER = ("From", "Sender", "Reply-To", "To", "Cc", "Date", "Subject")
@@ -74,7 +74,7 @@ _FORWARD_SUBJECT = re.compile(r"^\s*(?:re\s*:\s*)*fwd?\s*:", re.IGNORECASE)
 
 def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
     if path.stat().st_size > options.limits.email_bytes:
-        raise _too_large(options.limits.email_bytes)  # before any byte is parsed
+        raise too_large(options.limits.email_bytes)  # before any byte is parsed
     bounded = bounded_message(path, options.limits)
     raw = bounded.data
     if not raw.strip():
@@ -105,7 +105,7 @@ def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
     # the text is lost when the part the body was taken from was dropped (it is empty now);
     # a dropped alternative (the HTML of a message read from its text/plain part) is not
     text_lost = bool(bounded.text_skipped) and not builder.text()[body_start:].strip()
-    if bounded.skipped > int(text_lost):
+    if bounded.skipped > (bounded.text_skipped if text_lost else 0):
         warnings.append("attachment_skipped")
     status, reason, note = DocStatus.OK, "", ""
     if bounded.limit_hit:
@@ -114,7 +114,7 @@ def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
     elif text_lost:
         warnings.append("mime_limits")
         status, reason = DocStatus.PARTIAL, "mime_limits"
-        note = f"the message text is larger than the per-part limit ({_shown(options.limits.email_part_bytes)}) and was not read"
+        note = f"the message text is larger than the per-part limit ({shown_size(options.limits.email_part_bytes)}) and was not read"
     elif "bad_mime_structure" in warnings:
         status, reason = DocStatus.PARTIAL, "bad_mime_structure"
         note = "the message's MIME structure could not be searched for its text; only the headers were read"
@@ -128,10 +128,6 @@ def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
         reason=reason,
         note=note,
     )
-
-
-def _shown(size: int) -> str:
-    return f"{size / (1024 * 1024):g} MB" if size >= 1024 * 1024 else f"{size} bytes"
 
 
 def _has_defects(message: EmailMessage, limits: Limits) -> bool:
@@ -400,7 +396,7 @@ def bounded_message(path: Path, limits: Limits) -> Bounded:
                 break
             total += len(piece)
             if total > limits.email_bytes:
-                raise _too_large(limits.email_bytes)  # the file grew after its size was checked
+                raise too_large(limits.email_bytes)  # the file grew after its size was checked
             line_start, at_line_start = at_line_start, piece.endswith(b"\n")
             if line_start and piece.startswith(b"--") and any(levels):
                 delimiter = piece.rstrip(b"\r\n").rstrip(b" \t")

@@ -72,8 +72,7 @@ from .builder import TextBuilder
 #: A gap wider than this many average character widths separates two "columns" of a line.
 WIDE_GAP = 2.5
 LINE_TOLERANCE = 3.0
-#: Largest inflated size of one Flate stream (100 MB; common practice, no source).  A ``Limits``
-#: field ``pdf_stream_bytes``, when there is one, wins.
+#: Largest inflated size of one Flate stream (100 MB; common practice, no source).
 STREAM_BYTES = 100 * 1024 * 1024
 #: The ``%PDF-`` signature may follow some junk, within the first KiB (ISO 32000 §7.5.2 note).
 SIGNATURE_WINDOW = 1024
@@ -261,7 +260,7 @@ def read_pdf(path: Path, source: str, options: ExtractOptions) -> Document:
             try:
                 result = _read_mixed(fast, path, options, has_end)
             except _Restart:
-                result = None
+                pass  # pdfplumber reads the whole document
             finally:
                 fast.close()
         if result is None:
@@ -276,7 +275,7 @@ def _plumber_open(path: Path, options: ExtractOptions, has_end: bool) -> tuple[A
     import pdfplumber  # lazy: pdfminer is slow to import
 
     _install_inflate_cap()
-    _INFLATE.cap = int(getattr(options.limits, "pdf_stream_bytes", STREAM_BYTES))
+    _INFLATE.cap = STREAM_BYTES
     return _open(pdfplumber, path, options, has_end)
 
 
@@ -319,29 +318,29 @@ def _open_fast(path: Path, options: ExtractOptions, has_end: bool) -> Any:
         if path.stat().st_size > FAST_PATH_BYTES:
             return None
         data = path.read_bytes()
-        found = pdfium.scan(data, stream_cap=int(getattr(options.limits, "pdf_stream_bytes", STREAM_BYTES)), content_budget=options.limits.chars)
+        found = pdfium.scan(data, stream_cap=STREAM_BYTES, content_budget=options.limits.chars)
         return pdfium.FastDocument.open(data, found, options.limits.pdf_pages)
-    except pdfium.Refused:
-        return None
-    except Exception:  # noqa: BLE001 - anything unexpected: pdfplumber reads the file as before
+    except Exception:  # noqa: BLE001 - refused, or anything unexpected: pdfplumber reads the file
         return None
 
 
 class _Plumber:
     """pdfplumber for the pages of a fast-path document that PDFium leaves to it; opened lazily."""
 
-    def __init__(self, path: Path, options: ExtractOptions, has_end: bool, stats: _Stats) -> None:
+    def __init__(self, path: Path, options: ExtractOptions, has_end: bool, stats: _Stats, pages: int) -> None:
         from pdfminer.pdfpage import PDFPage
 
         self.pdf, self.warnings = _plumber_open(path, options, has_end)
         try:
             try:
-                _check_page_tree(self.pdf.doc, options.limits.pdf_pages)
+                count = _check_page_tree(self.pdf.doc, options.limits.pdf_pages)
                 stats.form_values = _form_values(self.pdf.doc)
             except ReadFailure:
                 raise
             except Exception as exc:  # noqa: BLE001
                 raise _classify(exc) from None
+            if count is not None and count != pages:
+                raise _Restart()  # pdfminer sees other pages than PDFium: pdfplumber reads them all
             self.pages = PDFPage.create_pages(self.pdf.doc)
         except BaseException:
             _close(self.pdf)
@@ -384,7 +383,7 @@ def _read_mixed(fast: Any, path: Path, options: ExtractOptions, has_end: bool) -
                     builder.add_line(text)
                 continue
             if plumber is None:
-                plumber = _Plumber(path, options, has_end, stats)
+                plumber = _Plumber(path, options, has_end, stats, fast.pages)
             doctop = _read_one(builder, plumber.pdf, plumber.page_obj(index), doctop, stats, options, ocr)
     finally:
         if ocr is not None:

@@ -42,7 +42,7 @@ import ctypes
 import re
 import struct
 import zlib
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
 #: Deepest nesting of arrays and dictionaries accepted on the fast path (pdfminer's
@@ -105,7 +105,6 @@ class Scan:
     has_cropbox: bool = False
     content_bytes: int = 0
     other_bytes: int = 0
-    reasons: list[str] = field(default_factory=list)
 
 
 def scan(data: bytes, *, stream_cap: int, content_budget: int) -> Scan:

@@ -224,18 +224,8 @@ def _check_values(data: Any, checker: _Checker) -> bool:
 
 
 def _parse_json(text: str, source: str) -> tuple[Any, Locate, list[tuple[int, SchemaError]]]:
-    duplicates: list[str] = []
-
-    def note_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
-        result: dict[str, Any] = {}
-        for key, value in pairs:
-            if key in result:
-                duplicates.append(key)
-            result[key] = value  # the last one counts, as in any JSON reader
-        return result
-
     try:
-        data = json.loads(text, object_pairs_hook=note_duplicates)
+        data = json.loads(text)  # a repeated key: the last one counts here, and the layout scan reports it
     except json.JSONDecodeError as exc:
         raise SchemaError(source, f"line {exc.lineno}, column {exc.colno}", f"not valid JSON ({exc.msg})") from None
     except RecursionError:
@@ -243,8 +233,6 @@ def _parse_json(text: str, source: str) -> tuple[Any, Locate, list[tuple[int, Sc
     except ValueError as exc:  # a number over Python's 4,300-digit limit, for one
         raise SchemaError(source, "", f"not valid JSON ({_one_line(exc)})") from None
     lines, found = _json_layout(text, source)  # duplicates (with their lines) and depth
-    if duplicates and not found:  # the layout scan missed one: still refuse it
-        found = [(0, SchemaError(source, "", f"duplicate key {key!r}")) for key in dict.fromkeys(duplicates)]
 
     def locate(path: tuple[Any, ...]) -> str:
         for end in range(len(path), 0, -1):
@@ -396,7 +384,7 @@ def _check_node_tree(root: yaml.Node, source: str) -> list[tuple[int, SchemaErro
     found: list[tuple[int, SchemaError]] = []
 
     def size(node: yaml.Node, depth: int) -> int:
-        if depth > 100:
+        if depth > MAX_DEPTH:
             raise SchemaError(source, f"line {node.start_mark.line + 1}", "nesting is too deep")
         known = sizes.get(id(node))
         if known is not None:
@@ -406,7 +394,7 @@ def _check_node_tree(root: yaml.Node, source: str) -> list[tuple[int, SchemaErro
             seen: set[str] = set()
             for key, value in node.value:
                 if isinstance(key, yaml.ScalarNode):
-                    if key.value in seen and id(node) not in sizes:
+                    if key.value in seen:
                         line = key.start_mark.line + 1
                         found.append((line, SchemaError(source, f"line {line}", f"duplicate key {key.value!r}")))
                     seen.add(key.value)
@@ -425,11 +413,15 @@ def _check_node_tree(root: yaml.Node, source: str) -> list[tuple[int, SchemaErro
         size(root, 0)
     except SchemaError as error:  # the duplicates found before it are problems too
         listed = [item for _, item in sorted(found, key=lambda pair: pair[0])]
-        if len(listed) >= MAX_PROBLEMS:
-            hidden = len(listed) - (MAX_PROBLEMS - 2)
-            listed = [*listed[: MAX_PROBLEMS - 2], SchemaError(source, "", f"{hidden} more problems not listed")]
-        raise SchemaError.several([*listed, error]) from None
+        raise _several(source, [*listed[: MAX_PROBLEMS - 1], error], len(listed) + 1) from None
     return found
+
+
+def _several(source: str, shown: list[SchemaError], total: int) -> SchemaError:
+    """One error listing ``shown`` (at most :data:`MAX_PROBLEMS`) of ``total`` problems, and
+    how many more there are."""
+    hidden = total - len(shown)
+    return SchemaError.several([*shown, SchemaError(source, "", f"{hidden} more problems not listed")] if hidden else shown)
 
 
 def _node_at(root: yaml.Node, path: tuple[Any, ...]) -> yaml.Node | None:
@@ -535,11 +527,8 @@ class _Checker:
 
     def collected(self) -> SchemaError:
         ordered = [error for _, _, error in sorted(self.problems, key=lambda item: item[:2])]
-        unique = list({error.args[0]: error for error in reversed(ordered)}.values())[::-1]
-        if len(unique) > MAX_PROBLEMS:
-            hidden = len(unique) - MAX_PROBLEMS
-            unique = [*unique[:MAX_PROBLEMS], SchemaError(self.source, "", f"{hidden} more problems not listed")]
-        return SchemaError.several(unique)
+        unique = list({error.args[0]: error for error in ordered}.values())  # the first of each message
+        return _several(self.source, unique[:MAX_PROBLEMS], len(unique))
 
     # shapes
 

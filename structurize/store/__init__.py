@@ -195,6 +195,14 @@ class Store:
     def __exit__(self, *exc: object) -> None:
         self.close()
 
+    def location_warning(self) -> str | None:
+        """A warning when the store lives where SQLite's locking cannot be trusted (a
+        network file system), else None."""
+        remote = network_filesystem(self.path)
+        if remote is None:
+            return None
+        return f"warning: the store is on a network file system ({remote}); SQLite's locking is not reliable there: keep it on a local disk"
+
     def acquire(self) -> str | None:
         """Take the writer's lock; returns a message when a stale lock was taken over."""
         self.lock = StoreLock(self.path)
