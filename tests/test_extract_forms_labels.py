@@ -15,7 +15,7 @@ import pytest
 
 from structurize.api import extract_document
 from structurize.extract.layout import find_pairs
-from structurize.extract.text import cue_match, norm
+from structurize.extract.text import agent_cue, cue_match, norm
 from structurize.readers import read_document
 from structurize.resolve import resolve_field
 from structurize.types import Candidate, Span, ValueStatus
@@ -287,3 +287,23 @@ def test_rival_of_a_clear_label(winner_flags: tuple[str, ...], rival: tuple[str,
     else:
         assert value.value == "Priya Halvorsen"
         assert value.confidence == pytest.approx(expected, abs=0.002)
+
+
+@pytest.mark.parametrize(
+    ("cue", "expected"),
+    [
+        ("interviewed by", True),
+        ("approved", True),
+        ("interviewer", True),
+        ("line manager", True),
+        ("supervisor", True),
+        ("employee number", False),
+        ("offer letter", False),
+        ("transfer", False),
+        ("work order", False),
+        ("start date", False),
+    ],
+)
+def test_agent_cue_names_a_doer(cue: str, expected: bool) -> None:
+    # a "... by" label is left to the field whose cue names the one who did it
+    assert agent_cue(cue) is expected

@@ -12,6 +12,7 @@ from __future__ import annotations
 import datetime as dt
 import re
 from dataclasses import dataclass
+from typing import Any
 from functools import cached_property, lru_cache
 
 from ..schema.model import FieldSpec, TargetSchema
@@ -137,6 +138,8 @@ class Analysis:
         self.schema = schema
         self.text = doc.text
         self.entities = entities
+        #: Facts an extractor works out once per document and reuses (see ``extractors.memo``).
+        self.memo: dict[Any, Any] = {}
 
     @cached_property
     def ocr(self) -> bool:
@@ -503,6 +506,10 @@ class Analysis:
                 names.append(found[2])
                 covered = found[1]
         return [name for name in dict.fromkeys(names) if not is_partial_name(name) and not self.is_listed_value(name)]
+
+    def full_name(self, name: str) -> str:
+        """``name`` completed to the document's full name when one fits (else as it is)."""
+        return self.complete_name(name) or name
 
     def complete_name(self, name: str) -> str | None:
         """Expand a short name ("Carlos", "Ms. Rahman", "F. MacAllister", "De Luca") to the

@@ -27,10 +27,10 @@ combines them.  How each score is built is documented in DEVELOPERS.md ("Confide
 from __future__ import annotations
 
 import re
-import weakref
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import replace
 from functools import lru_cache
+from typing import Any, TypeVar
 
 from ..readers.builder import UNICODE_CONTROLS
 from ..schema.model import FieldSpec
@@ -46,8 +46,6 @@ from .text import (GENERIC_LABEL_WORDS, PhraseSet, agent_cue, agent_label, conte
 
 #: Below this cue/label match a label is not taken as naming the field.
 MIN_LABEL_MATCH = 0.6
-#: Column headings that say what kind of value a cell holds, not which field it is.
-GENERIC_COLUMNS = KIND_HEADINGS
 LABEL_WEIGHT = 0.92
 #: A label matching a cue at least this well names the field (the cue itself, a synonym, the
 #: cue with a word more or in another order): the match counts fully; weaker matches (a
@@ -164,12 +162,15 @@ def _owner_margin(an: Analysis, spec: FieldSpec, label: str, score: float) -> fl
 def _agent_claims(an: Analysis, spec: FieldSpec, label: str) -> bool:
     """Another field's cue names the doer of a "… by" label ("interviewed by" for "Exit
     interview by")."""
-    for other in an.schema.fields:
-        if other.name != spec.name and any(
-            agent_cue(norm(cue)) and cue_match(norm(cue), label) >= MIN_LABEL_MATCH for cue in other.hints.cues
-        ):
-            return True
-    return False
+    return bool(memo(an, ("agents", label), lambda: _agent_fields(an, label)) - {spec.name})
+
+
+def _agent_fields(an: Analysis, label: str) -> frozenset[str]:
+    """The fields one of whose cues names the doer that ``label`` names."""
+    return frozenset(
+        other.name for other in an.schema.fields
+        if any(agent_cue(norm(cue)) and cue_match(norm(cue), label) >= MIN_LABEL_MATCH for cue in other.hints.cues)
+    )
 
 
 def _resolve_first_person(an: Analysis, spec: FieldSpec, reading: Reading) -> Reading | None:
@@ -178,7 +179,7 @@ def _resolve_first_person(an: Analysis, spec: FieldSpec, reading: Reading) -> Re
     person = roles.author or roles.signer
     if person is None:
         return None
-    name = an.complete_name(person.name) or person.name
+    name = an.full_name(person.name)
     return Reading(name, person.start, person.end, 0.85 * reading.quality, reading.flags | {"first_person"},
                    evidence=("first person: the author or signer",))
 
@@ -194,12 +195,27 @@ def _ordered(readings: list[Reading]) -> list[Reading]:
 # --- label.v1 ------------------------------------------------------------------------------
 
 
-def _label_matches(an: Analysis, spec: FieldSpec) -> Iterator[tuple[LabelPair, str, float, str, float]]:
+T = TypeVar("T")
+
+
+def memo(an: Analysis, key: Any, compute: Callable[[], T]) -> T:
+    """``compute()`` once per document and ``key``; later calls get the same result."""
+    if key not in an.memo:
+        an.memo[key] = compute()
+    return an.memo[key]
+
+
+def _label_matches(an: Analysis, spec: FieldSpec) -> list[tuple[LabelPair, str, float, str, float]]:
+    """The label/value pairs whose label names ``spec`` (label.v1 and unread.v1 both read them)."""
+    return memo(an, ("label_matches", spec.name), lambda: list(_find_label_matches(an, spec)))
+
+
+def _find_label_matches(an: Analysis, spec: FieldSpec) -> Iterator[tuple[LabelPair, str, float, str, float]]:
     """Label/value pairs whose label names ``spec``: ``(pair, label, match, cue, ownership)``."""
     for pair in an.pairs:
         if pair.source == "header":
             continue
-        if pair.source == "column" and pair.rows > 1 and pair.label in GENERIC_COLUMNS:
+        if pair.source == "column" and pair.rows > 1 and pair.label in KIND_HEADINGS:
             continue  # "Name" over several rows says what each value is, not which field it fills
         label = pair.label
         match, cue = _best_cue(spec, label)
@@ -209,7 +225,7 @@ def _label_matches(an: Analysis, spec: FieldSpec) -> Iterator[tuple[LabelPair, s
             bare_match, bare_cue = _best_cue(spec, bare)
             if ASIDE_FACTOR * bare_match > match:
                 match, cue = ASIDE_FACTOR * bare_match, bare_cue
-        if pair.column and pair.column not in GENERIC_COLUMNS:
+        if pair.column and pair.column not in KIND_HEADINGS:
             # A cell of a wider table is named by its row and column headings together
             # ("Title" × "Requested"); a cue must name the row, not only the column.
             row_words = set(label.split())
@@ -624,7 +640,7 @@ def _system_sender(an: Analysis, spec: FieldSpec, address, span: Span, evidence:
     yield Candidate(spec.name, None, address.name, at, "header.v1", SYSTEM_SENDER, note, frozenset({"stated_missing", "system_sender"}),
                     alternatives=(Alternative(address.name, 0.3, at),))
     signer = an.roles.signer
-    name = (an.complete_name(signer.name) or signer.name) if signer is not None else ""
+    name = an.full_name(signer.name) if signer is not None else ""
     if signer is not None and not is_partial_name(name):
         yield Candidate(spec.name, name, an.text[signer.start : signer.end], Span(signer.start, signer.end), "header.v1", 0.6,
                         evidence + ("display name names no person: the body's signer",))
@@ -636,7 +652,7 @@ def _signature_for_address(an: Analysis, spec: FieldSpec, address: str, evidence
     if signer is None:
         yield Candidate(spec.name, None, address, Span(0, 0), "header.v1", 0.6, evidence + ("no display name and no signature",), frozenset({"stated_missing"}))
         return
-    name = an.complete_name(signer.name) or signer.name
+    name = an.full_name(signer.name)
     signer = Person(signer.start, signer.end, name, signer.source)
     local = re.split(r"[._-]", address.split("@")[0].lower())
     tokens = [t.lower() for t in signer.name.split()]
@@ -676,7 +692,7 @@ def role_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
         if author is not None:
             people.append((author, 0.32, "author/signer"))
     for person, score, role in people:
-        name = an.complete_name(person.name) or person.name
+        name = an.full_name(person.name)
         flags = kinds.person_flags(name)  # "Dear Mr. De Luca" with no full name anywhere: a surname alone
         if flags:
             score = min(score, 0.5)
@@ -751,16 +767,18 @@ def _near_misses(an: Analysis, spec: FieldSpec, vocabulary: Vocabulary) -> Itera
     """Capitalised phrases one or two edits away from a listed value ("Elm Rdge")."""
     exact = {(m.start, m.end) for m in vocabulary.find(an.text, loose=False)}
     for match in _CAPITAL_RUN.finditer(an.text):
+        if any(s <= match.start() < e for s, e in exact):
+            continue
         words = match.group().split()
         for size in range(len(words), 1, -1):
             phrase = " ".join(words[:size])
-            if len(phrase) < 6 or any(s <= match.start() < e for s, e in exact):
+            if len(phrase) < 6:
                 continue
             misses = vocabulary.near_miss(phrase)
             if misses:
                 value, variant, score = misses[0]
                 end = match.start() + len(" ".join(an.text[match.start() : match.end()].split()[:size]))
-                alternatives = tuple(Alternative(v, s) for v, _, s in misses[1:] if v != value)
+                alternatives = tuple(Alternative(v, s) for v, _, s in misses[1:])  # one entry per value
                 reading = Reading(value, match.start(), end, 1.0, frozenset({"near_miss"}), alternatives=alternatives)
                 yield _candidate(spec, reading, "scan.v1", 0.3 * score, (f"near miss of {variant!r}",), an, fallback=True)
                 break
@@ -918,6 +936,10 @@ CLEAR_CLAIM = 0.7
 
 def _claims(an: Analysis, pair: LabelPair) -> tuple[bool, frozenset[str]]:
     """Whether some field's cues name a pair's label clearly, and the fields that name it at all."""
+    return memo(an, ("claims", pair), lambda: _find_claims(an, pair))
+
+
+def _find_claims(an: Analysis, pair: LabelPair) -> tuple[bool, frozenset[str]]:
     labels = [pair.label] + ([pair.column, f"{pair.column} {pair.label}", f"{pair.label} {pair.column}"] if pair.column else [])
     best = 0.0
     claimers = set()
@@ -963,27 +985,24 @@ def _kind_reading(an: Analysis, spec: FieldSpec, span: Span) -> Reading | None:
     return None
 
 
-_UNCLAIMED: "weakref.WeakKeyDictionary[Analysis, list[tuple[LabelPair, frozenset[str], frozenset[str]]]]" = weakref.WeakKeyDictionary()
-
-
 def _unclaimed_pairs(an: Analysis, spec: FieldSpec | None = None) -> list[tuple[LabelPair, frozenset[str]]]:
     """Label/value pairs (table rows and columns included) whose label no field's cues name
     clearly, with the label's word stems (computed once per document); with ``spec``, less
     those whose label ``spec``'s own cues name (label.v1 reads them)."""
-    cached = _UNCLAIMED.get(an)
-    if cached is None:
-        cached = []
-        for pair in an.pairs:
-            if pair.source == "header" or not len(pair.value_span):
-                continue
-            stems = content_stems(an.text[pair.label_span.start : pair.label_span.end])
-            if not stems:
-                continue
-            clear, claimers = _claims(an, pair)
-            if not clear:
-                cached.append((pair, stems, claimers))
-        _UNCLAIMED[an] = cached
-    return [(pair, stems) for pair, stems, claimers in cached if spec is None or spec.name not in claimers]
+    found = memo(an, "unclaimed_pairs", lambda: list(_find_unclaimed_pairs(an)))
+    return [(pair, stems) for pair, stems, claimers in found if spec is None or spec.name not in claimers]
+
+
+def _find_unclaimed_pairs(an: Analysis) -> Iterator[tuple[LabelPair, frozenset[str], frozenset[str]]]:
+    for pair in an.pairs:
+        if pair.source == "header" or not len(pair.value_span):
+            continue
+        stems = content_stems(an.text[pair.label_span.start : pair.label_span.end])
+        if not stems:
+            continue
+        clear, claimers = _claims(an, pair)
+        if not clear:
+            yield pair, stems, claimers
 
 
 def unclaimed_label_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
@@ -1209,7 +1228,6 @@ def _unread_dateline(an: Analysis) -> Span | None:
 PROSE_SYNONYM_FACTOR = 0.95
 #: ... and through a word of the field's title.
 PROSE_TITLE_FACTOR = 0.6
-_HITS: "weakref.WeakKeyDictionary[Analysis, dict[str, list[tuple[CueHit, str]]]]" = weakref.WeakKeyDictionary()
 
 
 @lru_cache(maxsize=64)
@@ -1234,13 +1252,19 @@ def _variant_matcher(fields: tuple[tuple[str, tuple[str, ...]], ...]) -> tuple[l
 
 
 def _variant_hits(an: Analysis) -> dict[str, list[tuple[CueHit, str]]]:
-    cached = _HITS.get(an)
-    if cached is not None:
-        return cached
+    return memo(an, "variant_hits", lambda: _find_variant_hits(an))
+
+
+def _cue_spans(an: Analysis) -> list[tuple[int, int]]:
+    """Where the fields' cues occur in the document."""
+    return memo(an, "cue_spans", lambda: [(hit.start, hit.end) for hits in an.cue_hits.values() for hit in hits])
+
+
+def _find_variant_hits(an: Analysis) -> dict[str, list[tuple[CueHit, str]]]:
     out: dict[str, list[tuple[CueHit, str]]] = {}
     variants, owners, matcher = _variant_matcher(tuple((spec.name, spec.hints.cues) for spec in an.schema.fields))
     if matcher is not None:
-        taken = [(hit.start, hit.end) for hits in an.cue_hits.values() for hit in hits]
+        taken = _cue_spans(an)
         for start, end, index in matcher.find(an.text):
             if _cue_covers(taken, start, end):
                 continue  # a cue is here
@@ -1249,7 +1273,6 @@ def _variant_hits(an: Analysis) -> dict[str, list[tuple[CueHit, str]]]:
                     continue
                 note = f"{an.text[start:end]!r} in running text reads as the cue {cue!r}"
                 out.setdefault(name, []).append((CueHit(variants[index], start, end), note))
-    _HITS[an] = out
     return out
 
 
@@ -1285,7 +1308,7 @@ def prose_title_extractor(an: Analysis, spec: FieldSpec) -> Iterator[Candidate]:
     pattern = _title_pattern(spec.title, spec.name)
     if pattern is None:
         return
-    taken = [(hit.start, hit.end) for hits in an.cue_hits.values() for hit in hits]
+    taken = _cue_spans(an)
     hits = []
     for match in pattern.finditer(an.text):
         if _cue_covers(taken, match.start(), match.end()):

@@ -142,7 +142,7 @@ def _person_reading(an: Analysis, found: tuple[int, int, str]) -> Reading | None
 def ner_person_reading(an: Analysis, person: Person) -> Reading:
     """A PERSON entity, completed to a full name when the document holds one; a surname or
     given name alone stays flagged ``partial_name``."""
-    full = an.complete_name(person.name) or person.name
+    full = an.full_name(person.name)
     if is_partial_name(full):
         return Reading(full, person.start, person.end, 0.6, frozenset({"partial_name"}), evidence=("ner PERSON", "no full name found"))
     return Reading(full, person.start, person.end, 0.8, frozenset(), evidence=("ner PERSON",))

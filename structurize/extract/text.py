@@ -169,16 +169,24 @@ def cue_match(cue: str, label: str) -> float:
 
 
 _AGENT_WORDS = re.compile(r"(?:ed|en|er|or)$")
+#: Words ending like a doer ("-er", "-or") or a participle ("-en") that name none (common
+#: practice, no source).
+_NOT_DOERS = frozenset(
+    """after center centre chapter color colour corner december door error factor floor junior labor labour
+    later letter major manor matter member minor november number october offer order other over paper
+    prior quarter register senior sector september summer tenor transfer under water winter
+    garden often open seven ten token kitchen""".split()
+)
 
 
 def agent_cue(cue: str) -> bool:
     """A cue that names who did something: "interviewed by", "approved", "interviewer"
-    (not "employee number": a kind word ending in -er is no doer)."""
+    (not "employee number" or "offer letter": a word ending in -er is not always a doer)."""
     words = cue.split()
     if not words:
         return False
     last = words[-1]
-    return last == "by" or (bool(_AGENT_WORDS.search(last)) and last not in GENERIC_LABEL_WORDS)
+    return last == "by" or (bool(_AGENT_WORDS.search(last)) and last not in GENERIC_LABEL_WORDS and last not in _NOT_DOERS)
 
 
 def agent_label(label: str) -> bool:
@@ -354,7 +362,7 @@ def _inflected(word: str) -> str:
     return re.escape(root) + r"(?:e|es|ed|ing|s|er|ers|ion|ions|ment|\w(?:ed|ing))?"
 
 
-_HEAD = _WORD_RUN = re.compile(r"\w+")
+_WORD_RUN = re.compile(r"\w+")
 
 
 class PhraseSet:
@@ -381,7 +389,7 @@ class PhraseSet:
         self._scan_all = False
         for phrase in phrases:
             first = phrase.split()[0] if phrase.split() else ""
-            word = _HEAD.match(first)
+            word = _WORD_RUN.match(first)
             if word is None or word.start() > 0 or (inflect and first.lower() in _PRONOUNS):
                 self._scan_all = True
                 continue

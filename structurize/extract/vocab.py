@@ -219,13 +219,17 @@ class Vocabulary:
             return []
         choices = self._near_choices
         best: dict[str, tuple[str, str, float]] = {}
-        for folded, score, index in process.extract(target, [c[0] for c in choices], scorer=fuzz.ratio, limit=None, score_cutoff=60):
+        for folded, score, index in process.extract(target, self._near_strings, scorer=fuzz.ratio, limit=None, score_cutoff=60):
             if Levenshtein.distance(target, folded, score_cutoff=self.fuzzy_distance) > self.fuzzy_distance:
                 continue
             _, variant, value = choices[index]
             if value not in best or score / 100 > best[value][2]:
                 best[value] = (value, variant, score / 100)
         return sorted(best.values(), key=lambda item: -item[2])
+
+    @cached_property
+    def _near_strings(self) -> list[str]:
+        return [choice[0] for choice in self._near_choices]
 
     @cached_property
     def _near_choices(self) -> list[tuple[str, str, str]]:

@@ -98,13 +98,14 @@ def read_email(path: Path, source: str, options: ExtractOptions) -> Document:
     builder.blank()
     body_start = builder.offset
     fallback = _add_body(builder, message, warnings, options)
-    subject = next((builder.text()[h.span.start : h.span.end] for h in builder.headers if h.name == "Subject"), "")
+    text = builder.text()
+    subject = next((text[h.span.start : h.span.end] for h in builder.headers if h.name == "Subject"), "")
     _mark_quotes(builder, body_start, forward=bool(_FORWARD_SUBJECT.match(subject)))
     if _has_defects(message, options.limits):
         warnings.append("email_defects")
     # the text is lost when the part the body was taken from was dropped (it is empty now);
     # a dropped alternative (the HTML of a message read from its text/plain part) is not
-    text_lost = bool(bounded.text_skipped) and not builder.text()[body_start:].strip()
+    text_lost = bool(bounded.text_skipped) and not text[body_start:].strip()
     if bounded.skipped > (bounded.text_skipped if text_lost else 0):
         warnings.append("attachment_skipped")
     status, reason, note = DocStatus.OK, "", ""
@@ -536,7 +537,7 @@ def _mark_quotes(builder: TextBuilder, body_start: int, *, forward: bool = False
             if stop is None:
                 builder.mark("quoted", start, end)
                 return
-            builder.mark("quoted", start, lines[stop - 1].end if stop > index else start)
+            builder.mark("quoted", start, lines[stop - 1].end)
             index = stop
             continue
         index += 1
@@ -559,7 +560,7 @@ def _intro_length(lines: list[Span], index: int, text: str) -> int:
 def _inner_headers(lines: list[Span], index: int, text: str) -> int:
     """The number of header lines of an earlier message starting at ``lines[index]`` (0: none).
 
-    An earlier message's headers start with ``From:`` and go on, within the next four
+    An earlier message's headers start with ``From:`` and go on, within the next five
     lines, with at least two more of Sent/Date/To/Cc/Subject, one of them ``Sent:`` or
     ``Subject:`` (every client writes one of those; a form's "From: / To: / Date:" lines
     alone are not a message's headers).

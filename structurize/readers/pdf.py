@@ -328,20 +328,12 @@ class _Plumber:
     """pdfplumber for the pages of a fast-path document that PDFium leaves to it; opened lazily."""
 
     def __init__(self, path: Path, options: ExtractOptions, has_end: bool, stats: _Stats, pages: int) -> None:
-        from pdfminer.pdfpage import PDFPage
-
         self.pdf, self.warnings = _plumber_open(path, options, has_end)
         try:
-            try:
-                count = _check_page_tree(self.pdf.doc, options.limits.pdf_pages)
-                stats.form_values = _form_values(self.pdf.doc)
-            except ReadFailure:
-                raise
-            except Exception as exc:  # noqa: BLE001
-                raise _classify(exc) from None
+            count = _prepare(self.pdf, options.limits.pdf_pages, stats)
             if count is not None and count != pages:
                 raise _Restart()  # pdfminer sees other pages than PDFium: pdfplumber reads them all
-            self.pages = PDFPage.create_pages(self.pdf.doc)
+            self.pages = _page_objects(self.pdf)
         except BaseException:
             _close(self.pdf)
             raise
@@ -350,12 +342,9 @@ class _Plumber:
     def page_obj(self, index: int) -> Any:
         page_obj = None
         while self.next <= index:
-            try:
-                page_obj = next(self.pages)
-            except StopIteration:
-                raise _Restart() from None
-            except Exception as exc:  # noqa: BLE001 - a broken page tree
-                raise _classify(exc) from None
+            page_obj = next(self.pages, None)
+            if page_obj is None:
+                raise _Restart()
             self.next += 1
         return page_obj
 
@@ -481,29 +470,14 @@ class _Stats:
 
 
 def _read_pages(pdf: Any, path: Path, options: ExtractOptions) -> tuple[TextBuilder, _Stats]:
-    from pdfminer.pdfpage import PDFPage
-
     limit = options.limits.pdf_pages
     stats = _Stats()
-    try:
-        _check_page_tree(pdf.doc, limit)
-        stats.form_values = _form_values(pdf.doc)
-    except ReadFailure:
-        raise
-    except Exception as exc:  # noqa: BLE001
-        raise _classify(exc) from None
+    _prepare(pdf, limit, stats)
     builder = TextBuilder()
     ocr = _ocr_reader(path, options, builder)
     doctop = 0.0
     try:
-        pages = PDFPage.create_pages(pdf.doc)
-        while True:
-            try:
-                page_obj = next(pages)
-            except StopIteration:
-                break
-            except Exception as exc:  # noqa: BLE001 - a broken page tree
-                raise _classify(exc) from None
+        for page_obj in _page_objects(pdf):
             if stats.pages >= limit:
                 raise _too_many_pages(limit)
             stats.pages += 1
@@ -513,6 +487,34 @@ def _read_pages(pdf: Any, path: Path, options: ExtractOptions) -> tuple[TextBuil
         if ocr is not None:
             ocr.close()
     return builder, stats
+
+
+def _prepare(pdf: Any, limit: int, stats: _Stats) -> int | None:
+    """Before any page is read: check the page tree (its page count, or None) and count the
+    filled form fields."""
+    try:
+        count = _check_page_tree(pdf.doc, limit)
+        stats.form_values = _form_values(pdf.doc)
+    except ReadFailure:
+        raise
+    except Exception as exc:  # noqa: BLE001
+        raise _classify(exc) from None
+    return count
+
+
+def _page_objects(pdf: Any) -> Iterator[Any]:
+    """pdfminer's pages in order; a broken page tree is classified, never raised raw."""
+    from pdfminer.pdfpage import PDFPage
+
+    pages = PDFPage.create_pages(pdf.doc)
+    while True:
+        try:
+            page_obj = next(pages)
+        except StopIteration:
+            return
+        except Exception as exc:  # noqa: BLE001 - a broken page tree
+            raise _classify(exc) from None
+        yield page_obj
 
 
 def _read_one(builder: TextBuilder, pdf: Any, page_obj: Any, doctop: float, stats: _Stats, options: ExtractOptions, ocr: Any) -> float:
