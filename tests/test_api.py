@@ -39,3 +39,19 @@ def test_api_one_document_carries_spans_and_confidence() -> None:
 def test_api_exports() -> None:
     for name in structurize.__all__:
         assert hasattr(structurize, name), name
+
+
+def test_run_summary_counts_and_problems(tmp_path) -> None:
+    # the summaries the CLI prints come from one pass over the documents
+    from structurize.api import extract_folder
+    from conftest import RULES_ONLY, make_schema
+
+    (tmp_path / "good.txt").write_text("Start date: 3 March 2025\n", encoding="utf-8")
+    (tmp_path / "empty.txt").write_bytes(b"")
+    schema = make_schema({"name": "start_date", "type": "date", "extract": {"as": "date", "cues": ["start date"]}})
+    result = extract_folder(tmp_path, schema, options=RULES_ONLY)
+    counts = result.counts()
+    assert (counts["documents"], counts["read"], counts["not_read"]) == (2, 1, 1)
+    assert counts["ok"] == 1
+    assert result.status_counts() == {"ok": 1, "failed": 1}
+    assert [(source, str(status), reason) for source, status, reason, _ in result.problems()] == [("empty.txt", "failed", "empty_file")]

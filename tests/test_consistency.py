@@ -61,7 +61,7 @@ def test_system_sender(display: str, expected: bool) -> None:
     [
         ("5600", "month", "67200", "year", True),  # 12 x 5,600
         ("5600", "month", "60000", "year", False),  # 10 % short
-        ("21", "hour", "43680", "year", True),  # 2,080 working hours, inside 1,500-2,600
+        ("21", "hour", "43680", "year", True),  # 2,080 working hours (40 x 52; common practice, no source)
         ("21", "hour", "90000", "year", False),
         ("1000", "week", "52000", "year", True),
         ("0", "month", "0", "year", False),  # nothing is no pay to compare
